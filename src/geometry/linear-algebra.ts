@@ -1,0 +1,175 @@
+/**
+ * Small dense linear algebra on plain nested arrays (d is 1-3 in practice).
+ * Hand-written loops: these sit on hot paths where allocating ml-matrix
+ * objects would dominate. Decompositions (SVD, eigen) use ml-matrix.
+ */
+import { EigenvalueDecomposition, LuDecomposition, Matrix as MlMatrix, SingularValueDecomposition } from 'ml-matrix';
+import { FitError } from '../errors.js';
+import type { Matrix, Points } from '../types.js';
+
+export function identity(d: number): number[][] {
+  const out: number[][] = [];
+  for (let i = 0; i < d; i++) {
+    const row = new Array<number>(d).fill(0);
+    row[i] = 1;
+    out.push(row);
+  }
+  return out;
+}
+
+export function zeros(rows: number, cols: number): number[][] {
+  const out: number[][] = [];
+  for (let i = 0; i < rows; i++) out.push(new Array<number>(cols).fill(0));
+  return out;
+}
+
+export function transpose(a: Matrix): number[][] {
+  const rows = a.length, cols = rows ? a[0].length : 0;
+  const out = zeros(cols, rows);
+  for (let i = 0; i < rows; i++) for (let j = 0; j < cols; j++) out[j][i] = a[i][j];
+  return out;
+}
+
+export function multiply(a: Matrix, b: Matrix): number[][] {
+  const n = a.length, m = b[0].length, k = b.length;
+  const out = zeros(n, m);
+  for (let i = 0; i < n; i++)
+    for (let j = 0; j < m; j++) {
+      let s = 0;
+      for (let l = 0; l < k; l++) s += a[i][l] * b[l][j];
+      out[i][j] = s;
+    }
+  return out;
+}
+
+export function multiplyVector(a: Matrix, v: readonly number[]): number[] {
+  const out = new Array<number>(a.length);
+  for (let i = 0; i < a.length; i++) {
+    let s = 0;
+    const row = a[i];
+    for (let j = 0; j < v.length; j++) s += row[j] * v[j];
+    out[i] = s;
+  }
+  return out;
+}
+
+export function scaleMatrix(a: Matrix, c: number): number[][] {
+  return a.map((row) => row.map((v) => v * c));
+}
+
+export function addMatrices(a: Matrix, b: Matrix): number[][] {
+  return a.map((row, i) => row.map((v, j) => v + b[i][j]));
+}
+
+export function trace(a: Matrix): number {
+  let s = 0;
+  for (let i = 0; i < a.length; i++) s += a[i][i];
+  return s;
+}
+
+/** Determinant of a 1x1, 2x2 or 3x3 matrix by cofactor expansion; larger sizes via LU in ml-matrix. */
+export function determinant(a: Matrix): number {
+  const d = a.length;
+  if (d === 1) return a[0][0];
+  if (d === 2) return a[0][0] * a[1][1] - a[0][1] * a[1][0];
+  if (d === 3)
+    return (
+      a[0][0] * (a[1][1] * a[2][2] - a[1][2] * a[2][1]) -
+      a[0][1] * (a[1][0] * a[2][2] - a[1][2] * a[2][0]) +
+      a[0][2] * (a[1][0] * a[2][1] - a[1][1] * a[2][0])
+    );
+  return new LuDecomposition(new MlMatrix(a.map((r) => r.slice()))).determinant;
+}
+
+/** Weighted mean of rows; weights need not sum to one. */
+export function weightedMean(points: Points, weights?: readonly number[]): number[] {
+  const d = points[0].length;
+  const out = new Array<number>(d).fill(0);
+  let total = 0;
+  for (let i = 0; i < points.length; i++) {
+    const w = weights ? weights[i] : 1;
+    total += w;
+    for (let j = 0; j < d; j++) out[j] += w * points[i][j];
+  }
+  for (let j = 0; j < d; j++) out[j] /= total;
+  return out;
+}
+
+/**
+ * Weighted cross-covariance (1/W) sum_i w_i (a_i - ma)(b_i - mb)^T, with
+ * W = sum_i w_i: the biased (divide by total weight) convention of Umeyama (1991), eq. 38.
+ */
+export function crossCovariance(
+  a: Points,
+  ma: readonly number[],
+  b: Points,
+  mb: readonly number[],
+  weights?: readonly number[],
+): number[][] {
+  const da = ma.length, db = mb.length;
+  const out = zeros(da, db);
+  let total = 0;
+  for (let i = 0; i < a.length; i++) {
+    const w = weights ? weights[i] : 1;
+    total += w;
+    for (let r = 0; r < da; r++) {
+      const ar = w * (a[i][r] - ma[r]);
+      for (let c = 0; c < db; c++) out[r][c] += ar * (b[i][c] - mb[c]);
+    }
+  }
+  for (let r = 0; r < da; r++) for (let c = 0; c < db; c++) out[r][c] /= total;
+  return out;
+}
+
+/** Singular value decomposition a = U diag(s) V^T (ml-matrix, Golub-Kahan). */
+export function svd(a: Matrix): { u: number[][]; s: number[]; v: number[][] } {
+  const dec = new SingularValueDecomposition(new MlMatrix(a.map((r) => r.slice())), {
+    autoTranspose: true,
+  });
+  return { u: dec.leftSingularVectors.to2DArray(), s: dec.diagonal, v: dec.rightSingularVectors.to2DArray() };
+}
+
+/**
+ * Eigen-decomposition of a symmetric matrix, eigenvalues in descending order,
+ * eigenvectors as the columns of `vectors` (ml-matrix, tridiagonal QL).
+ */
+export function symmetricEigen(a: Matrix): { values: number[]; vectors: number[][] } {
+  const sym = a.map((row, i) => row.map((v, j) => 0.5 * (v + a[j][i])));
+  const dec = new EigenvalueDecomposition(new MlMatrix(sym), { assumeSymmetric: true });
+  const values = dec.realEigenvalues;
+  const vecs = dec.eigenvectorMatrix.to2DArray();
+  const order = values.map((_, i) => i).sort((i, j) => values[j] - values[i]);
+  return {
+    values: order.map((i) => values[i]),
+    vectors: vecs.map((row) => order.map((i) => row[i])),
+  };
+}
+
+/** Inverse of a small square matrix (Gauss-Jordan with partial pivoting). Throws on a singular matrix. */
+export function inverse(a: Matrix): number[][] {
+  const d = a.length;
+  const m = a.map((row, i) => [...row, ...identity(d)[i]]);
+  for (let c = 0; c < d; c++) {
+    let p = c;
+    for (let r = c + 1; r < d; r++) if (Math.abs(m[r][c]) > Math.abs(m[p][c])) p = r;
+    if (m[p][c] === 0 || !Number.isFinite(m[p][c])) throw new FitError('inverse: matrix is singular');
+    [m[c], m[p]] = [m[p], m[c]];
+    const piv = m[c][c];
+    for (let j = 0; j < 2 * d; j++) m[c][j] /= piv;
+    for (let r = 0; r < d; r++) {
+      if (r === c) continue;
+      const f = m[r][c];
+      if (f !== 0) for (let j = 0; j < 2 * d; j++) m[r][j] -= f * m[c][j];
+    }
+  }
+  return m.map((row) => row.slice(d));
+}
+
+export function squaredDistance(a: readonly number[], b: readonly number[]): number {
+  let s = 0;
+  for (let i = 0; i < a.length; i++) {
+    const t = a[i] - b[i];
+    s += t * t;
+  }
+  return s;
+}
