@@ -71,7 +71,7 @@ function checkInputs(name: string, source: Points, target: Points, options: FitO
   if (source.length !== target.length) {
     throw new FitError(`${name}: source and target have different numbers of points (${source.length} vs ${target.length})`);
   }
-  if (source.length === 0) throw new FitError(`${name} needs at least ${minPoints} points, got 0`);
+  if (source.length === 0) throw new FitError(`${name}: no points given`);
   const d = source[0].length;
   if (d < 1 || d > 3) throw new FitError(`${name}: dimension must be 1, 2 or 3, got ${d}`);
   for (let i = 0; i < source.length; i++) {
@@ -112,10 +112,10 @@ function spreadRank(scatter: number[][], tolerance: number): { rank: number; val
   return { rank: values.filter((v) => v > tolerance * top).length, values };
 }
 
-function describeRankDeficiency(d: number, rank: number): string {
-  if (rank === 0) return 'all points coincide';
-  if (rank === 1) return 'the points are collinear';
-  return 'the points are coplanar';
+function describeRankDeficiency(d: number, rank: number, which = 'points'): string {
+  if (rank === 0) return `all ${which} coincide`;
+  if (rank === 1) return `the ${which} are collinear`;
+  return `the ${which} are coplanar`;
 }
 
 function fitOrthogonal(kind: 'similarity' | 'rigid', source: Points, target: Points, options: FitOptions): FitResult {
@@ -138,6 +138,19 @@ function fitOrthogonal(kind: 'similarity' | 'rigid', source: Points, target: Poi
   // Sigma_xy = (1/W) sum w (y - my)(x - mx)^T, Umeyama eq. 38.
   const sxy = crossCovariance(target, my, source, mx, w);
   const { u, s, v } = svd(sxy);
+  // The rotation is unique only when rank(Sigma_xy) >= d - 1 (Umeyama 1991, Lemma / eq. 39); a
+  // full-rank source is not enough when the target points coincide or lie on a line (3-D).
+  const syy = crossCovariance(target, my, target, my, w);
+  const sigmaY2 = syy.reduce((acc, row, i) => acc + row[i], 0);
+  const crossRank = s[0] > tol * Math.sqrt(sigmaX2 * sigmaY2) ? s.filter((val) => val > tol * s[0]).length : 0;
+  if (crossRank < Math.max(1, d - 1)) {
+    const targetRank = spreadRank(syy, tol).rank;
+    const why =
+      targetRank < Math.max(1, d - 1)
+        ? describeRankDeficiency(d, targetRank, 'target points')
+        : 'the target points are not linearly related to the source';
+    throw new FitError(`${name}: ${why}, so the rotation is not determined (cross-covariance rank ${crossRank}, need ${Math.max(1, d - 1)})`);
+  }
   // Sign correction S (eq. 39): flip the smallest singular direction when det(U) det(V) < 0.
   const sign = new Array<number>(d).fill(1);
   const reflectedSvd = determinant(u) * determinant(v) < 0;
