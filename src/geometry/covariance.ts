@@ -17,7 +17,10 @@ export function cholesky(sigma: Matrix): number[][] {
   for (let i = 0; i < d; i++) {
     if (sigma[i].length !== d) throw new FitError(`cholesky: matrix is not square (${d}x${sigma[i].length})`);
     for (let j = 0; j <= i; j++) {
-      if (Math.abs(sigma[i][j] - sigma[j][i]) > 1e-9 * (Math.abs(sigma[i][j]) + Math.abs(sigma[j][i]) + 1e-300)) {
+      // Asymmetry is judged against the scale sqrt(|S_ii S_jj|) as well as the entries themselves: a rotated
+      // covariance R S R^T has off-diagonals that should be 0 but differ by rounding (1e-15 of the diagonal).
+      const scale = Math.abs(sigma[i][j]) + Math.abs(sigma[j][i]) + Math.sqrt(Math.abs(sigma[i][i] * sigma[j][j]));
+      if (Math.abs(sigma[i][j] - sigma[j][i]) > 1e-9 * scale) {
         throw new FitError(`cholesky: matrix is not symmetric at (${i}, ${j})`);
       }
       let s = sigma[i][j];

@@ -65,6 +65,13 @@ describe('cholesky', () => {
     }
   });
 
+  it('accepts a rotated covariance R S R^T whose zero off-diagonals differ only by rounding', () => {
+    // Found while testing: [[100, 7.1e-15, 0], [-7.1e-15, 100, 0], [0, 0, 9]] was rejected as not symmetric.
+    const sigma = [[100, 7.105427357601002e-15, 0], [-7.105427357601002e-15, 100, 0], [0, 0, 9]];
+    expectArrayClose(cholesky(sigma), [[10, 0, 0], [0, 10, 0], [0, 0, 3]], 14);
+    expect(() => cholesky([[100, 1e-6], [-1e-6, 100]])).toThrow(new FitError('cholesky: matrix is not symmetric at (1, 0)'));
+  });
+
   it('throws FitError for a matrix that is not positive definite, not symmetric or not square', () => {
     expect(() => cholesky([[1, 2], [2, 1]])).toThrow(FitError);
     expect(() => cholesky([[1, 2], [2, 1]])).toThrow(/not positive definite \(pivot 1 is -3\)/);
