@@ -155,6 +155,7 @@ describe('generateAnimal', () => {
     ]) {
       const animal = generateAnimal(layout3, createRng(7), 'a', { missingFraction: missing, outlierFraction: outliers });
       const trueCells = animal.truth.filter((t) => t !== null);
+      animal.truthIndex.forEach((c, i) => expect(c === null ? null : layout3.labels[c]).toBe(animal.truth[i]));
       expect(new Set(trueCells).size).toBe(trueCells.length);
       expect(animal.missingCells).toHaveLength(Math.round(missing * 190));
       expect(trueCells.length).toBe(190 - Math.round(missing * 190));

@@ -83,6 +83,8 @@ export interface Animal {
   sample: Sample;
   /** True cell of each point, null for outliers. */
   truth: (string | null)[];
+  /** Layout index of each point's true cell, null for outliers (parallel to `truth`). */
+  truthIndex: (number | null)[];
   /** Exact inverse of this animal's deformation (translation, rotation, scale, bend); jitter excluded. */
   toLayoutFrame: (p: readonly number[]) => number[];
   scale: number;
@@ -433,7 +435,8 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
   let perm = coords.map((_, i) => i);
   if (options.shuffle ?? true) perm = shuffled(perm, rng);
   coords = perm.map((i) => coords[i]);
-  const truth = perm.map((i) => (truthCells[i] === null ? null : layout.labels[truthCells[i] as number]));
+  const truthIndex = perm.map((i) => truthCells[i]);
+  const truth = truthIndex.map((c) => (c === null ? null : layout.labels[c]));
   const labels = perm.map((i) => (labelCells[i] === null ? null : layout.labels[labelCells[i] as number]));
   const inverse = new Map(perm.map((i, k) => [i, k]));
   const wrongLabelPoints = [...wrong].map((i) => inverse.get(i) as number).sort((x, y) => x - y);
@@ -450,6 +453,7 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
   return {
     sample,
     truth,
+    truthIndex,
     toLayoutFrame,
     fromLayoutFrame,
     scale,
