@@ -123,8 +123,11 @@ describe('generateLayout', () => {
     expect(generateLayout(createRng(11), { namePrefix: 'q' }).labels[0]).toBe(`q${layout3.labels[0]}`);
   });
 
-  it('rejects a layout of fewer than 2 cells', () => {
+  it('rejects a layout of fewer than 2 cells and an empty jitter range', () => {
     expect(() => generateLayout(createRng(1), { cells: 1 })).toThrow(/cells must be an integer >= 2, got 1/);
+    expect(() => generateLayout(createRng(1), { jitterRange: [2, 1] })).toThrow(
+      'generateLayout: jitterRange must satisfy 0 < low <= high, got [2, 1]',
+    );
   });
 });
 
@@ -282,12 +285,15 @@ describe('generateAnimal', () => {
     expect(animal.sample.labels.filter((l) => l !== null).length).toBeGreaterThan(0);
   });
 
-  it('rejects fractions outside [0, 1]', () => {
+  it('rejects fractions outside [0, 1] and negative amounts', () => {
     expect(() => generateAnimal(layout3, createRng(1), 'a', { missingFraction: 1.5 })).toThrow(
       'generateAnimal: missingFraction must be in [0, 1], got 1.5',
     );
     expect(() => generateAnimal(layout3, createRng(1), 'a', { outlierFraction: 1 })).toThrow(
       'generateAnimal: outlierFraction must be in [0, 1), got 1',
+    );
+    expect(() => generateAnimal(layout3, createRng(1), 'a', { bend: -1 })).toThrow(
+      'generateAnimal: bend must be a finite number >= 0, got -1',
     );
   });
 });

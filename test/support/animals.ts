@@ -191,6 +191,10 @@ export function generateLayout(rng: Rng, options: LayoutOptions = {}): Layout {
   if (!Number.isInteger(n) || n < 2) throw new RangeError(`generateLayout: cells must be an integer >= 2, got ${n}`);
   if (dim !== 2 && dim !== 3) throw new RangeError(`generateLayout: dim must be 2 or 3, got ${String(dim)}`);
   if (!(spacing > 0)) throw new RangeError(`generateLayout: nearestSpacing must be > 0, got ${spacing}`);
+  if (!(jLo > 0 && jHi >= jLo && Number.isFinite(jHi)))
+    throw new RangeError(`generateLayout: jitterRange must satisfy 0 < low <= high, got [${jLo}, ${jHi}]`);
+  if (!(eLo >= 1 && eHi >= eLo && Number.isFinite(eHi)))
+    throw new RangeError(`generateLayout: elongationRange must satisfy 1 <= low <= high, got [${eLo}, ${eHi}]`);
 
   const b = 1;
   const a = uniform(rng, eLo, eHi) * b;
@@ -278,7 +282,9 @@ function nameCells(positions: readonly (readonly number[])[], prefix: string): s
  * round(kept f_o / (1 - f_o)), clustered = round(outliers share),
  * labelled = round(f_l kept), wrong = round(f_w labelled) (a swap of two
  * labelled points counts as two wrong labels, so the count may exceed the
- * target by one).
+ * target by one; it falls short only if too few points have a neighbour
+ * whose label can be taken without creating a duplicate).
+ * Throws RangeError for fractions outside their ranges or negative amounts.
  */
 export function generateAnimal(layout: Layout, rng: Rng, id: string, options: AnimalOptions = {}): Animal {
   const dim = layout.dim;
@@ -301,6 +307,14 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
     if (!(v >= 0 && v <= 1)) throw new RangeError(`generateAnimal: ${name} must be in [0, 1], got ${v}`);
   if (!(outlierFraction >= 0 && outlierFraction < 1))
     throw new RangeError(`generateAnimal: outlierFraction must be in [0, 1), got ${outlierFraction}`);
+  if (!(scaleRange >= 0 && scaleRange < 1))
+    throw new RangeError(`generateAnimal: scaleRange must be in [0, 1), got ${scaleRange}`);
+  for (const [name, v] of [
+    ['bend', bendMax],
+    ['translate', translateMax],
+    ['jitterScale', jitterScale],
+  ] as const)
+    if (!(v >= 0 && Number.isFinite(v))) throw new RangeError(`generateAnimal: ${name} must be a finite number >= 0, got ${v}`);
 
   // Deformation parameters.
   const scale = uniform(rng, 1 - scaleRange, 1 + scaleRange);
