@@ -7,6 +7,7 @@ import { Command, CommanderError } from 'commander';
 import { isCairnError, UsageError } from '../errors.js';
 import { VERSION } from '../version.js';
 import { registerCheck } from './check.js';
+import { registerInspect } from './inspect.js';
 
 export interface CliIo {
   stdout: (text: string) => void;
@@ -21,7 +22,7 @@ const processIo: CliIo = {
 /** Each command module exports a function that adds itself to the program. */
 export type CommandRegistrar = (program: Command, io: CliIo) => void;
 
-const registrars: CommandRegistrar[] = [registerCheck];
+const registrars: CommandRegistrar[] = [registerCheck, registerInspect];
 
 export function createProgram(io: CliIo = processIo): Command {
   const program = new Command();
