@@ -72,7 +72,12 @@ export interface TemplateMember {
   /** Labelled points used for the alignment. */
   readonly labelled: number;
   /** The member's labelled points in its own coordinates, kept for `--refit`. */
-  readonly positions: readonly { readonly label: string; readonly coords: readonly number[] }[];
+  readonly positions: readonly {
+    readonly label: string;
+    readonly coords: readonly number[];
+    /** 1-based line in the member's file (optional; lets --refit name flagged rows). */
+    readonly row?: number;
+  }[];
 }
 
 /** A hand label that looks wrong under its cell's distribution. */

@@ -1,0 +1,491 @@
+/**
+ * Co-registration of many partly labelled samples: generalised Procrustes
+ * analysis with missing labels and a robust consensus.
+ *
+ * Model. Sample i has labelled points x_ij (its own um) for a subset K_i of the
+ * cells. Find maps T_i (similarity by default; rigid or affine as options) and a
+ * consensus m_k per cell minimising
+ *
+ *   sum_i sum_{j in K_i} w_ij | T_i(x_ij) - m_k(j) |^2
+ *
+ * over the observations each sample actually has (Gower 1975, Psychometrika
+ * 40:33-51, the GPA loop; Ten Berge 1977, Psychometrika 42:267-276, its
+ * convergence and scaling; Commandeur 1991, "Matching configurations", ch. 4,
+ * the missing-data form where each consensus row averages only the samples that
+ * saw that cell). The loop:
+ *
+ * 1. Start: the sample with most labels is the first consensus; the others join
+ *    greedily, most shared cells first, each aligned on the cells it shares
+ *    with the consensus so far (cells it adds start at its aligned positions).
+ * 2. Align every sample to the consensus on its shared, currently kept cells
+ *    (translation re-estimated with rotation and scale in each fit: Umeyama 1991).
+ * 3. Consensus m_k = mean of the kept aligned observations of cell k.
+ * 4. Fix the frame (frame.ts): centroid at the origin, principal axes with the
+ *    sign rule, and the size of an average animal:
+ *    - similarity: s such that the mean over samples of
+ *      CS(x_i over its kept cells) / CS(m over the same cells) is 1, CS being
+ *      centroid size. With complete labels: CS(consensus) = mean_i CS(x_i).
+ *    - rigid: no rescaling (rigid fits keep each animal's size).
+ *    - affine: the gauge G = Pbar^-1, Pbar the mean over samples of the left
+ *      polar stretch (A_i A_i^T)^(1/2) of the fitted linear parts, so that members'
+ *      maps are, on average, free of stretch.
+ * 5. Robust weights (robust = 'trimmed'): hard-rejection reweighting on
+ *    leave-one-out Mahalanobis residuals, the reweighting step of Rousseeuw &
+ *    Leroy (1987), Robust Regression and Outlier Detection, ch. 7, with a chi-square
+ *    cut-off. For observation y of cell k, with the cell's kept statistics
+ *    computed WITHOUT y (n', m', W', so a wrong label cannot mask itself):
+ *      Sigma' = (nu_0 Sigma_pool + W') / (nu_0 + n' - 1),   (cell-statistics.ts)
+ *      D^2 = (y - m')^T [(1 + 1/n') Sigma']^-1 (y - m'),
+ *      w = 1 if D^2 <= chi2_d^-1(1 - flagProbability), else 0.
+ *    Cells with n' < 2 are not checked (w = 1). Truncation at the 0.999 quantile
+ *    leaves clean covariances about 1% small (consistency factor of Croux &
+ *    Haesbroeck 1999, not applied: sufficient statistics stay exact sums).
+ *    robust = 'none' keeps w = 1: ordinary GPA.
+ * 6. Stop when the consensus moved less than `tolerance` (um RMS over cells)
+ *    and the weights did not change, or after `maxIterations`.
+ *
+ * Entries are processed in content-hash order, so the result does not depend on
+ * the order of the input (up to nothing: the arithmetic is the same).
+ */
+import { FitError, UsageError } from '../errors.js';
+import {
+  applyTransform,
+  composeTransforms,
+  fitTransform,
+  identityTransform,
+  inverse,
+  mahalanobisSquared,
+  multiply,
+  precisionMatrix,
+  symmetricEigen,
+  transpose,
+  zeros,
+} from '../geometry/index.js';
+import type { Dim, Points, TemplateSettings, Transform } from '../types.js';
+import { pooledCovariance } from './cell-statistics.js';
+import { chiSquareQuantile } from './chi-square.js';
+import { canonicalFrame, centroidSize } from './frame.js';
+
+/** One sample's labelled points, the unit co-registration works on. */
+export interface LabelledEntry {
+  readonly id: string;
+  readonly source: string;
+  readonly hash: string;
+  readonly dim: Dim;
+  readonly labels: readonly string[];
+  /** Own coordinates (um), parallel to labels. */
+  readonly coords: Points;
+  /** 1-based file line of each point. */
+  readonly rows: readonly number[];
+}
+
+export interface IterationDiagnostics {
+  readonly iteration: number;
+  /** RMS over cells of the consensus change in this iteration (um). */
+  readonly meanShift: number;
+  /** RMS residual of the kept observations about the consensus (um). */
+  readonly rmsResidual: number;
+  /** Observations given weight 0 by the robust step. */
+  readonly downweighted: number;
+}
+
+export interface SkippedSample {
+  readonly sample: string;
+  readonly reason: string;
+}
+
+export interface CoRegistration {
+  readonly dim: Dim;
+  /** Cell labels, sorted by code unit. */
+  readonly cells: readonly string[];
+  /** Members in content-hash order. */
+  readonly entries: readonly LabelledEntry[];
+  /** Per member: own coordinates -> template frame. */
+  readonly transforms: readonly Transform[];
+  /** Per member, per point: index into `cells`. */
+  readonly cellOf: readonly (readonly number[])[];
+  /** Per member, per point: aligned position, applyTransform(transforms[i], coords). */
+  readonly aligned: readonly (readonly (readonly number[])[])[];
+  /** Per member, per point: kept by the robust step (false = flagged). */
+  readonly kept: readonly (readonly boolean[])[];
+  /** Per member, per point: leave-one-out Mahalanobis distance (not squared); NaN when not checked. */
+  readonly distance: readonly (readonly number[])[];
+  /** Consensus (K x d), rows in `cells` order. */
+  readonly consensus: readonly (readonly number[])[];
+  readonly iterations: readonly IterationDiagnostics[];
+  readonly converged: boolean;
+  readonly skipped: readonly SkippedSample[];
+}
+
+/** Fewest labelled points that determine an alignment of the given family in d dimensions. */
+export function minAlignmentPoints(kind: TemplateSettings['alignment'], dim: number): number {
+  return kind === 'affine' ? dim + 1 : Math.max(2, dim);
+}
+
+function byCodeUnit(a: string, b: string): number {
+  return a < b ? -1 : a > b ? 1 : 0;
+}
+
+/** Run the co-registration; see the module comment. Throws FitError when fewer than 2 samples can be aligned. */
+export function coRegister(input: readonly LabelledEntry[], settings: TemplateSettings): CoRegistration {
+  if (input.length === 0) throw new UsageError('coRegister: no samples given');
+  const dim = input[0].dim;
+  for (const e of input) {
+    if (e.dim !== dim) throw new UsageError(`samples mix dimensions: ${input[0].id} is ${dim}-D but ${e.id} is ${e.dim}-D`);
+  }
+  const kind = settings.alignment;
+  const minPoints = minAlignmentPoints(kind, dim);
+  const skipped: SkippedSample[] = [];
+
+  // Deterministic order: by content hash; duplicates of content or id are skipped.
+  const sorted = input.slice().sort((a, b) => byCodeUnit(a.hash, b.hash) || byCodeUnit(a.id, b.id));
+  const byHash = new Map<string, string>();
+  const ids = new Set<string>();
+  const candidates: LabelledEntry[] = [];
+  for (const e of sorted) {
+    const same = byHash.get(e.hash);
+    if (same !== undefined) {
+      skipped.push({ sample: e.id, reason: `same content as sample ${same}` });
+      continue;
+    }
+    if (ids.has(e.id)) {
+      skipped.push({ sample: e.id, reason: 'another sample with this id and different content was given' });
+      continue;
+    }
+    if (e.labels.length < minPoints) {
+      skipped.push({
+        sample: e.id,
+        reason: `has ${e.labels.length} labelled point${e.labels.length === 1 ? '' : 's'}; ${kind} alignment needs at least ${minPoints}`,
+      });
+      continue;
+    }
+    byHash.set(e.hash, e.id);
+    ids.add(e.id);
+    candidates.push(e);
+  }
+
+  // 1. Greedy start.
+  const start = initialise(candidates, kind, minPoints, skipped);
+  const entries = start.members;
+  if (entries.length < 2) {
+    const why = skipped.map((s) => `${s.sample}: ${s.reason}`).join('; ');
+    throw new FitError(`a template needs at least 2 samples that can be aligned, got ${entries.length}${why ? ` (skipped ${why})` : ''}`);
+  }
+  const cells = Array.from(new Set(entries.flatMap((e) => e.labels))).sort(byCodeUnit);
+  const cellIndex = new Map(cells.map((c, i) => [c, i]));
+  const cellOf = entries.map((e) => e.labels.map((l) => cellIndex.get(l) as number));
+  const k = cells.length;
+  let consensus = cells.map((c) => start.consensus.get(c) as number[]);
+  let transforms = start.transforms;
+  let kept = entries.map((e) => e.labels.map(() => true));
+  let distance = entries.map((e) => e.labels.map(() => Number.NaN));
+  const cutoff = chiSquareQuantile(1 - settings.flagProbability, dim);
+
+  // Initial frame.
+  let frame = frameMap(consensus, entries, cellOf, kept, transforms, kind);
+  consensus = applyTransform(frame, consensus);
+  transforms = transforms.map((t) => composeTransforms(frame, t));
+  let aligned = entries.map((e, i) => applyTransform(transforms[i], e.coords));
+
+  const iterations: IterationDiagnostics[] = [];
+  let converged = false;
+  for (let iteration = 1; iteration <= settings.maxIterations; iteration++) {
+    // 2. Align.
+    transforms = entries.map((e, i) => alignOne(e, cellOf[i], kept[i], consensus, kind, minPoints, transforms[i]));
+    aligned = entries.map((e, i) => applyTransform(transforms[i], e.coords));
+    // 3. Consensus.
+    let next = consensusOf(aligned, cellOf, kept, k, dim);
+    // 4. Frame.
+    frame = frameMap(next, entries, cellOf, kept, transforms, kind);
+    next = applyTransform(frame, next);
+    transforms = transforms.map((t) => composeTransforms(frame, t));
+    aligned = entries.map((e, i) => applyTransform(transforms[i], e.coords));
+    let shift = 0;
+    for (let c = 0; c < k; c++) for (let a = 0; a < dim; a++) shift += (next[c][a] - consensus[c][a]) ** 2;
+    const meanShift = Math.sqrt(shift / k);
+    consensus = next;
+    // 5. Robust weights.
+    let changed = false;
+    if (settings.robust === 'trimmed') {
+      const w = robustWeights(aligned, cellOf, kept, k, dim, settings.priorStrength, cutoff);
+      for (let i = 0; i < entries.length && !changed; i++) for (let j = 0; j < w.kept[i].length; j++) if (w.kept[i][j] !== kept[i][j]) changed = true;
+      kept = w.kept;
+      distance = w.distance;
+    }
+    let res = 0, nres = 0, down = 0;
+    for (let i = 0; i < entries.length; i++)
+      for (let j = 0; j < aligned[i].length; j++) {
+        if (!kept[i][j]) {
+          down++;
+          continue;
+        }
+        const m = consensus[cellOf[i][j]];
+        for (let a = 0; a < dim; a++) res += (aligned[i][j][a] - m[a]) ** 2;
+        nres++;
+      }
+    iterations.push({ iteration, meanShift, rmsResidual: Math.sqrt(res / Math.max(1, nres)), downweighted: down });
+    if (meanShift < settings.tolerance && !changed) {
+      converged = true;
+      break;
+    }
+  }
+  return { dim, cells, entries, transforms, cellOf, aligned, kept, distance, consensus, iterations, converged, skipped };
+}
+
+function initialise(
+  candidates: readonly LabelledEntry[],
+  kind: TemplateSettings['alignment'],
+  minPoints: number,
+  skipped: SkippedSample[],
+): { members: LabelledEntry[]; transforms: Transform[]; consensus: Map<string, number[]> } {
+  const members: LabelledEntry[] = [];
+  const transforms: Transform[] = [];
+  const consensus = new Map<string, number[]>();
+  const counts = new Map<string, number>();
+  if (candidates.length === 0) return { members, transforms, consensus };
+  let ref = 0;
+  for (let i = 1; i < candidates.length; i++) if (candidates[i].labels.length > candidates[ref].labels.length) ref = i;
+  const first = candidates[ref];
+  // The reference must itself be non-degenerate: fit it to itself.
+  try {
+    fitTransform(kind, first.coords, first.coords);
+    members.push(first);
+    transforms.push(identityTransform(first.dim));
+    first.labels.forEach((l, j) => {
+      consensus.set(l, first.coords[j].slice());
+      counts.set(l, 1);
+    });
+  } catch (e) {
+    if (!(e instanceof FitError)) throw e;
+    skipped.push({ sample: first.id, reason: `cannot be aligned: ${e.message}` });
+  }
+  const remaining = candidates.filter((_, i) => i !== ref);
+  while (remaining.length > 0) {
+    if (members.length === 0) {
+      // The reference was degenerate: start again from the next best.
+      let r = 0;
+      for (let i = 1; i < remaining.length; i++) if (remaining[i].labels.length > remaining[r].labels.length) r = i;
+      const next = remaining.splice(r, 1)[0];
+      try {
+        fitTransform(kind, next.coords, next.coords);
+        members.push(next);
+        transforms.push(identityTransform(next.dim));
+        next.labels.forEach((l, j) => {
+          consensus.set(l, next.coords[j].slice());
+          counts.set(l, 1);
+        });
+      } catch (e) {
+        if (!(e instanceof FitError)) throw e;
+        skipped.push({ sample: next.id, reason: `cannot be aligned: ${e.message}` });
+      }
+      continue;
+    }
+    let best = -1, bestShared = -1;
+    for (let i = 0; i < remaining.length; i++) {
+      let shared = 0;
+      for (const l of remaining[i].labels) if (consensus.has(l)) shared++;
+      if (shared > bestShared || (shared === bestShared && remaining[i].labels.length > remaining[best].labels.length)) {
+        best = i;
+        bestShared = shared;
+      }
+    }
+    if (bestShared < minPoints) {
+      for (const e of remaining) {
+        let shared = 0;
+        for (const l of e.labels) if (consensus.has(l)) shared++;
+        skipped.push({ sample: e.id, reason: `shares ${shared} labelled cell${shared === 1 ? '' : 's'} with the other samples; ${kind} alignment needs at least ${minPoints}` });
+      }
+      break;
+    }
+    const e = remaining.splice(best, 1)[0];
+    const src: number[][] = [], dst: number[][] = [];
+    e.labels.forEach((l, j) => {
+      const m = consensus.get(l);
+      if (m) {
+        src.push(e.coords[j] as number[]);
+        dst.push(m);
+      }
+    });
+    let t: Transform;
+    try {
+      t = fitTransform(kind, src, dst).transform;
+    } catch (err) {
+      if (!(err instanceof FitError)) throw err;
+      skipped.push({ sample: e.id, reason: `cannot be aligned on the ${src.length} cells it shares with the other samples: ${err.message}` });
+      continue;
+    }
+    members.push(e);
+    transforms.push(t);
+    const y = applyTransform(t, e.coords);
+    e.labels.forEach((l, j) => {
+      const m = consensus.get(l);
+      const n = counts.get(l) ?? 0;
+      if (m) {
+        for (let a = 0; a < m.length; a++) m[a] += (y[j][a] - m[a]) / (n + 1);
+        counts.set(l, n + 1);
+      } else {
+        consensus.set(l, y[j]);
+        counts.set(l, 1);
+      }
+    });
+  }
+  return { members, transforms, consensus };
+}
+
+function alignOne(
+  e: LabelledEntry,
+  cellOf: readonly number[],
+  kept: readonly boolean[],
+  consensus: Points,
+  kind: TemplateSettings['alignment'],
+  minPoints: number,
+  previous: Transform,
+): Transform {
+  const pick = (useAll: boolean) => {
+    const src: (readonly number[])[] = [], dst: (readonly number[])[] = [];
+    for (let j = 0; j < e.coords.length; j++) {
+      if (!useAll && !kept[j]) continue;
+      src.push(e.coords[j]);
+      dst.push(consensus[cellOf[j]]);
+    }
+    return { src, dst };
+  };
+  let { src, dst } = pick(false);
+  if (src.length < minPoints) ({ src, dst } = pick(true));
+  try {
+    return fitTransform(kind, src, dst).transform;
+  } catch (err) {
+    if (!(err instanceof FitError)) throw err;
+    return previous;
+  }
+}
+
+function consensusOf(aligned: readonly (readonly (readonly number[])[])[], cellOf: readonly (readonly number[])[], kept: readonly (readonly boolean[])[], k: number, dim: number): number[][] {
+  const sum = zeros(k, dim), all = zeros(k, dim);
+  const n = new Array<number>(k).fill(0), nAll = new Array<number>(k).fill(0);
+  for (let i = 0; i < aligned.length; i++)
+    for (let j = 0; j < aligned[i].length; j++) {
+      const c = cellOf[i][j];
+      const y = aligned[i][j];
+      for (let a = 0; a < dim; a++) all[c][a] += y[a];
+      nAll[c]++;
+      if (kept[i][j]) {
+        for (let a = 0; a < dim; a++) sum[c][a] += y[a];
+        n[c]++;
+      }
+    }
+  return sum.map((row, c) => (n[c] > 0 ? row.map((v) => v / n[c]) : all[c].map((v) => v / nAll[c])));
+}
+
+function frameMap(
+  consensus: Points,
+  entries: readonly LabelledEntry[],
+  cellOf: readonly (readonly number[])[],
+  kept: readonly (readonly boolean[])[],
+  transforms: readonly Transform[],
+  kind: TemplateSettings['alignment'],
+): Transform {
+  if (kind === 'rigid') return canonicalFrame(consensus, 1);
+  if (kind === 'similarity') {
+    let total = 0, n = 0;
+    for (let i = 0; i < entries.length; i++) {
+      const own: (readonly number[])[] = [], cons: (readonly number[])[] = [];
+      for (let j = 0; j < entries[i].coords.length; j++) {
+        if (!kept[i][j]) continue;
+        own.push(entries[i].coords[j]);
+        cons.push(consensus[cellOf[i][j]]);
+      }
+      const cs = centroidSize(cons);
+      if (own.length >= 2 && cs > 0) {
+        total += centroidSize(own) / cs;
+        n++;
+      }
+    }
+    return canonicalFrame(consensus, n > 0 ? total / n : 1);
+  }
+  // affine: G = Pbar^-1, Pbar = mean_i (A_i A_i^T)^(1/2).
+  const d = consensus[0].length;
+  const pbar = zeros(d, d);
+  for (const t of transforms) {
+    const { values, vectors } = symmetricEigen(multiply(t.linear, transpose(t.linear)));
+    for (let c = 0; c < d; c++) {
+      const r = Math.sqrt(Math.max(0, values[c])) / transforms.length;
+      for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) pbar[a][b] += r * vectors[a][c] * vectors[b][c];
+    }
+  }
+  return canonicalFrame(consensus, 1, inverse(pbar));
+}
+
+/**
+ * Hard-rejection weights from leave-one-out Mahalanobis residuals (module
+ * comment, step 5). Returns the new kept flags and the distances D (not squared).
+ */
+export function robustWeights(
+  aligned: readonly (readonly (readonly number[])[])[],
+  cellOf: readonly (readonly number[])[],
+  kept: readonly (readonly boolean[])[],
+  k: number,
+  dim: number,
+  priorStrength: number,
+  cutoff: number,
+): { kept: boolean[][]; distance: number[][] } {
+  // Kept statistics per cell: n, mean, scatter (two passes for accuracy).
+  const n = new Array<number>(k).fill(0);
+  const mean = zeros(k, dim);
+  for (let i = 0; i < aligned.length; i++)
+    for (let j = 0; j < aligned[i].length; j++)
+      if (kept[i][j]) {
+        const c = cellOf[i][j];
+        n[c]++;
+        for (let a = 0; a < dim; a++) mean[c][a] += aligned[i][j][a];
+      }
+  for (let c = 0; c < k; c++) if (n[c] > 0) for (let a = 0; a < dim; a++) mean[c][a] /= n[c];
+  const scatter = Array.from({ length: k }, () => zeros(dim, dim));
+  for (let i = 0; i < aligned.length; i++)
+    for (let j = 0; j < aligned[i].length; j++)
+      if (kept[i][j]) {
+        const c = cellOf[i][j];
+        const y = aligned[i][j];
+        for (let a = 0; a < dim; a++) for (let b = 0; b < dim; b++) scatter[c][a][b] += (y[a] - mean[c][a]) * (y[b] - mean[c][b]);
+      }
+  const pooled = pooledCovariance(scatter.map((s, c) => ({ n: n[c], scatter: s })), dim);
+  const outKept: boolean[][] = [], outDist: number[][] = [];
+  const r = new Array<number>(dim);
+  const cov = zeros(dim, dim);
+  const m1 = new Array<number>(dim);
+  for (let i = 0; i < aligned.length; i++) {
+    const rowKept: boolean[] = [], rowDist: number[] = [];
+    for (let j = 0; j < aligned[i].length; j++) {
+      const c = cellOf[i][j];
+      const y = aligned[i][j];
+      let n1 = n[c];
+      for (let a = 0; a < dim; a++) {
+        r[a] = y[a] - mean[c][a];
+        m1[a] = mean[c][a];
+      }
+      const self = kept[i][j];
+      if (self) {
+        n1 = n[c] - 1;
+        // m' = (n m - y) / (n - 1); W' = W - n/(n-1) (y - m)(y - m)^T.
+        if (n1 >= 1) for (let a = 0; a < dim; a++) m1[a] = mean[c][a] - r[a] / n1;
+      }
+      if (n1 < 2) {
+        rowKept.push(true);
+        rowDist.push(Number.NaN);
+        continue;
+      }
+      const f = self ? n[c] / n1 : 0;
+      const denom = priorStrength + n1 - 1;
+      const infl = 1 + 1 / n1;
+      for (let a = 0; a < dim; a++)
+        for (let b = 0; b < dim; b++) cov[a][b] = (infl * (priorStrength * pooled[a][b] + scatter[c][a][b] - f * r[a] * r[b])) / denom;
+      for (let a = 0; a < dim; a++) for (let b = 0; b < a; b++) cov[a][b] = cov[b][a];
+      const d2 = mahalanobisSquared(y, m1, precisionMatrix(cov));
+      rowKept.push(d2 <= cutoff);
+      rowDist.push(Math.sqrt(d2));
+    }
+    outKept.push(rowKept);
+    outDist.push(rowDist);
+  }
+  return { kept: outKept, distance: outDist };
+}
