@@ -1,9 +1,10 @@
 import { describe, it, expect } from 'vitest';
 import { readFileSync, readdirSync } from 'node:fs';
-import { join, resolve } from 'node:path';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { buildDemoData, type ManifestEntry } from '../../scripts/make-demo-data.js';
 
-const root = resolve(import.meta.dirname, '..', '..');
+const root = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
 const read = (path: string): string => readFileSync(join(root, path), 'utf8');
 
 /** Splits a committed demo CSV (no quoting in these files) into header and rows. */
