@@ -7,9 +7,15 @@ import type { Matrix, Points } from '../types.js';
 import { zeros } from './linear-algebra.js';
 
 /**
- * Lower-triangular L with Sigma = L L^T (Cholesky-Banachiewicz; Golub & Van Loan,
- * Matrix Computations, 4th ed., Algorithm 4.2.1). Throws FitError when Sigma is
- * not symmetric positive definite.
+ * Lower-triangular L with Sigma = L L^T and L_ii > 0, computed row by row
+ * (Cholesky-Banachiewicz order): L_ij = (S_ij - sum_{k<j} L_ik L_jk) / L_jj,
+ * L_ii = sqrt(S_ii - sum_{k<i} L_ik^2). See Golub & Van Loan, Matrix
+ * Computations, 4th ed., sec. 4.2 (section cited from memory). Reads the lower
+ * triangle; the upper one must agree to 1e-9 relative to the entries and to
+ * sqrt(|S_ii S_jj|).
+ *
+ * Throws FitError when Sigma is not square, not symmetric, or not positive
+ * definite (a pivot is <= 0 or not finite; the message names the pivot).
  */
 export function cholesky(sigma: Matrix): number[][] {
   const d = sigma.length;
@@ -48,7 +54,10 @@ export function isPositiveDefinite(sigma: Matrix): boolean {
   }
 }
 
-/** log det Sigma = 2 sum_i log L_ii from the Cholesky factor. */
+/**
+ * log det Sigma = 2 sum_i log L_ii from the Cholesky factor; stable where det
+ * itself would under- or overflow. Throws FitError as cholesky does.
+ */
 export function logDeterminant(sigma: Matrix): number {
   const l = cholesky(sigma);
   let s = 0;
@@ -56,7 +65,10 @@ export function logDeterminant(sigma: Matrix): number {
   return 2 * s;
 }
 
-/** Inverse of a symmetric positive definite matrix via its Cholesky factor. */
+/**
+ * Precision matrix Sigma^-1 = L^-T L^-1 of a symmetric positive definite matrix,
+ * via its Cholesky factor (symmetric by construction). Throws FitError as cholesky does.
+ */
 export function precisionMatrix(sigma: Matrix): number[][] {
   const l = cholesky(sigma);
   const d = l.length;
@@ -83,7 +95,8 @@ export function precisionMatrix(sigma: Matrix): number[][] {
 /**
  * Squared Mahalanobis distance (x - mu)^T P (x - mu), where P = Sigma^-1 is the
  * precision matrix (Mahalanobis 1936). Takes the precision, not the covariance,
- * so that hot loops invert once.
+ * so that hot loops invert once. x and mu have length d, P is d x d; shapes and
+ * finiteness are not checked (hot path).
  */
 export function mahalanobisSquared(x: readonly number[], mu: readonly number[], precision: Matrix): number {
   const d = x.length;
@@ -98,14 +111,19 @@ export function mahalanobisSquared(x: readonly number[], mu: readonly number[], 
   return s;
 }
 
-/** Mahalanobis distance (not squared) of x from N(mu, Sigma). */
+/**
+ * Mahalanobis distance (not squared) sqrt((x - mu)^T Sigma^-1 (x - mu)); takes the
+ * covariance. Equals scipy.spatial.distance.mahalanobis(x, mu, inv(Sigma)).
+ * Throws FitError when Sigma is not symmetric positive definite.
+ */
 export function mahalanobisDistance(x: readonly number[], mu: readonly number[], sigma: Matrix): number {
   return Math.sqrt(mahalanobisSquared(x, mu, precisionMatrix(sigma)));
 }
 
 /**
- * Sample covariance with the n - 1 denominator (unbiased), of the rows of `points`.
- * Throws FitError for fewer than 2 points.
+ * Sample covariance with the n - 1 denominator (unbiased), of the rows of an
+ * n x d array: S = sum_i (p_i - mean)(p_i - mean)^T / (n - 1), as numpy.cov(points,
+ * rowvar=False). Throws FitError for fewer than 2 points.
  */
 export function sampleCovariance(points: Points): number[][] {
   const n = points.length;
@@ -122,6 +140,7 @@ export function sampleCovariance(points: Points): number[][] {
 /**
  * Log density of N(mu, Sigma) at x:
  * -0.5 (d log 2pi + log det Sigma + (x - mu)^T Sigma^-1 (x - mu)).
+ * Throws FitError when Sigma is not symmetric positive definite.
  */
 export function gaussianLogDensity(x: readonly number[], mu: readonly number[], sigma: Matrix): number {
   const d = x.length;

@@ -7,6 +7,7 @@ import { EigenvalueDecomposition, LuDecomposition, Matrix as MlMatrix, SingularV
 import { FitError } from '../errors.js';
 import type { Matrix, Points } from '../types.js';
 
+/** d x d identity matrix (new array). */
 export function identity(d: number): number[][] {
   const out: number[][] = [];
   for (let i = 0; i < d; i++) {
@@ -17,12 +18,14 @@ export function identity(d: number): number[][] {
   return out;
 }
 
+/** rows x cols matrix of zeros (new array). */
 export function zeros(rows: number, cols: number): number[][] {
   const out: number[][] = [];
   for (let i = 0; i < rows; i++) out.push(new Array<number>(cols).fill(0));
   return out;
 }
 
+/** A^T: (A^T)_ji = A_ij, for an n x m matrix (n = 0 gives []). */
 export function transpose(a: Matrix): number[][] {
   const rows = a.length, cols = rows ? a[0].length : 0;
   const out = zeros(cols, rows);
@@ -30,6 +33,7 @@ export function transpose(a: Matrix): number[][] {
   return out;
 }
 
+/** Matrix product (A B)_ij = sum_l A_il B_lj; A is n x k, B is k x m. Shapes are not checked. */
 export function multiply(a: Matrix, b: Matrix): number[][] {
   const n = a.length, m = b[0].length, k = b.length;
   const out = zeros(n, m);
@@ -42,6 +46,7 @@ export function multiply(a: Matrix, b: Matrix): number[][] {
   return out;
 }
 
+/** Matrix-vector product (A v)_i = sum_j A_ij v_j; A is n x d, v has length d. */
 export function multiplyVector(a: Matrix, v: readonly number[]): number[] {
   const out = new Array<number>(a.length);
   for (let i = 0; i < a.length; i++) {
@@ -53,14 +58,17 @@ export function multiplyVector(a: Matrix, v: readonly number[]): number[] {
   return out;
 }
 
+/** c A, entry by entry. */
 export function scaleMatrix(a: Matrix, c: number): number[][] {
   return a.map((row) => row.map((v) => v * c));
 }
 
+/** A + B, entry by entry (same shapes). */
 export function addMatrices(a: Matrix, b: Matrix): number[][] {
   return a.map((row, i) => row.map((v, j) => v + b[i][j]));
 }
 
+/** tr A = sum_i A_ii of a square matrix. */
 export function trace(a: Matrix): number {
   let s = 0;
   for (let i = 0; i < a.length; i++) s += a[i][i];
@@ -81,7 +89,11 @@ export function determinant(a: Matrix): number {
   return new LuDecomposition(new MlMatrix(a.map((r) => r.slice()))).determinant;
 }
 
-/** Weighted mean of rows; weights need not sum to one. */
+/**
+ * Weighted mean of the rows of an n x d array, mu = sum_i w_i p_i / sum_i w_i;
+ * weights need not sum to one (default all 1). Needs n >= 1 and a positive total
+ * weight (callers check; otherwise the result is NaN).
+ */
 export function weightedMean(points: Points, weights?: readonly number[]): number[] {
   const d = points[0].length;
   const out = new Array<number>(d).fill(0);
@@ -121,7 +133,11 @@ export function crossCovariance(
   return out;
 }
 
-/** Singular value decomposition a = U diag(s) V^T (ml-matrix, Golub-Kahan). */
+/**
+ * Singular value decomposition A = U diag(s) V^T (ml-matrix; used on square d x d matrices,
+ * Golub-Kahan-Reinsch as in JAMA): U, V orthogonal (also when A is rank
+ * deficient), s non-negative in descending order.
+ */
 export function svd(a: Matrix): { u: number[][]; s: number[]; v: number[][] } {
   const dec = new SingularValueDecomposition(new MlMatrix(a.map((r) => r.slice())), {
     autoTranspose: true,
@@ -145,7 +161,11 @@ export function symmetricEigen(a: Matrix): { values: number[]; vectors: number[]
   };
 }
 
-/** Inverse of a small square matrix (Gauss-Jordan with partial pivoting). Throws on a singular matrix. */
+/**
+ * Inverse of a small square matrix by Gauss-Jordan elimination with partial
+ * pivoting. Throws FitError('inverse: matrix is singular') when a pivot is
+ * exactly 0 or not finite; a nearly singular matrix is inverted, not rejected.
+ */
 export function inverse(a: Matrix): number[][] {
   const d = a.length;
   const m = a.map((row, i) => [...row, ...identity(d)[i]]);
@@ -165,6 +185,7 @@ export function inverse(a: Matrix): number[][] {
   return m.map((row) => row.slice(d));
 }
 
+/** Squared Euclidean distance |a - b|^2 of two points of the same length. */
 export function squaredDistance(a: readonly number[], b: readonly number[]): number {
   let s = 0;
   for (let i = 0; i < a.length; i++) {

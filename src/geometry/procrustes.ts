@@ -8,7 +8,13 @@
  *
  * R is a proper rotation (det R = +1) unless `allowReflection` is set, by the
  * sign correction S of Umeyama's eq. 39. Degenerate configurations throw
- * FitError saying why; nothing is fitted silently.
+ * FitError saying why; nothing is fitted silently. (Umeyama's equation numbers
+ * are quoted from memory of the paper; the worked example of its section III is
+ * reproduced in test/geometry/procrustes.test.ts.)
+ *
+ * Shapes: `source` and `target` are n x d (d = 1, 2 or 3), row i of one
+ * corresponding to row i of the other; `weights` has length n. Column-vector
+ * convention: the fitted map is y = A x + t, so A = c R acts on the left.
  */
 import { FitError } from '../errors.js';
 import type { Points, Transform } from '../types.js';
@@ -51,18 +57,40 @@ export interface FitResult {
   readonly reflected: boolean;
 }
 
-/** Fit the transform of the given family. */
+/**
+ * Fit the transform of the given family ('similarity', 'rigid' or 'affine');
+ * see fitSimilarity, fitRigid and fitAffine for formulas and errors.
+ */
 export function fitTransform(kind: TransformKind, source: Points, target: Points, options: FitOptions = {}): FitResult {
   if (kind === 'affine') return fitAffine(source, target, options);
   return fitOrthogonal(kind, source, target, options);
 }
 
-/** Weighted similarity fit (rotation, uniform scale, translation). Umeyama (1991). */
+/**
+ * Weighted similarity fit: minimise (1/W) sum_i w_i |y_i - (c R x_i + t)|^2 over
+ * rotations R, scales c > 0 and translations t (Umeyama 1991, eqs. 38-42):
+ * Sigma_xy = U D V^T, R = U S V^T, c = tr(D S) / sigma_x^2, t = mu_y - c R mu_x,
+ * with S = diag(1, ..., 1, -1) when det(U) det(V) < 0 and reflection is not allowed.
+ *
+ * Example (Umeyama 1991, section III): x = (0,0),(1,0),(0,2), y = (0,0),(-1,0),(0,2)
+ * gives R = [[3,2],[-2,3]]/sqrt(13), c = sqrt(13)/5, t = (-0.8, 0.4), residual 8/15.
+ *
+ * Throws FitError when: source and target differ in length or dimension; a
+ * coordinate or weight is not finite, or a weight is negative; fewer than
+ * max(2, d) points have positive weight; the weighted source spread has rank
+ * below max(1, d - 1) (coincident points, or collinear points in 3-D); the
+ * cross-covariance has rank below max(1, d - 1) (e.g. all target points
+ * coincide); the best scale is not positive.
+ */
 export function fitSimilarity(source: Points, target: Points, options: FitOptions = {}): FitResult {
   return fitOrthogonal('similarity', source, target, options);
 }
 
-/** Weighted rigid fit (rotation and translation, no scale). Umeyama (1991) with c = 1. */
+/**
+ * Weighted rigid fit: as fitSimilarity with c fixed to 1, so R = U S V^T and
+ * t = mu_y - R mu_x (Umeyama 1991 with c = 1; the rotation does not depend on c).
+ * Throws FitError in the same cases as fitSimilarity, except the scale check.
+ */
 export function fitRigid(source: Points, target: Points, options: FitOptions = {}): FitResult {
   return fitOrthogonal('rigid', source, target, options);
 }
@@ -180,7 +208,18 @@ function fitOrthogonal(kind: 'similarity' | 'rigid', source: Points, target: Poi
   };
 }
 
-/** Weighted affine least-squares fit y = A x + t: A = Sigma_yx Sigma_xx^-1, t = mu_y - A mu_x. */
+/**
+ * Weighted affine least-squares fit y = A x + t: with weighted means mu and
+ * biased (divide by W) covariances, A = Sigma_yx Sigma_xx^-1 and t = mu_y - A mu_x
+ * (the normal equations of ordinary weighted least squares). The reported
+ * `rotation` is the orthogonal polar factor of A (U V^T from A = U D V^T, sign
+ * corrected unless reflection is allowed) and `scale` is |det A|^(1/d).
+ *
+ * Throws FitError when: inputs are malformed (as fitSimilarity); fewer than
+ * d + 1 points have positive weight; the weighted source spread has rank
+ * below d (collinear points in 2-D, coplanar in 3-D); det A < 0 and reflection
+ * is not allowed.
+ */
 export function fitAffine(source: Points, target: Points, options: FitOptions = {}): FitResult {
   const d = source[0]?.length ?? 0;
   checkInputs('fitAffine', source, target, options, d + 1);

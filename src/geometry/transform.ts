@@ -6,6 +6,7 @@ import { FitError } from '../errors.js';
 import type { Points, Transform } from '../types.js';
 import { determinant, identity, inverse, multiply, multiplyVector } from './linear-algebra.js';
 
+/** The identity map of dimension `dim`, recorded as kind 'similarity' (c = 1, R = I, t = 0). */
 export function identityTransform(dim: number): Transform {
   return { kind: 'similarity', linear: identity(dim), translation: new Array<number>(dim).fill(0) };
 }
@@ -38,7 +39,10 @@ export function composeTransforms(outer: Transform, inner: Transform): Transform
   return { kind, linear, translation };
 }
 
-/** The inverse map x = A^-1 (y - t). Throws FitError when A is singular. */
+/**
+ * The inverse map x = A^-1 (y - t), i.e. linear part A^-1 and translation -A^-1 t;
+ * the kind is kept. Throws FitError when det A is 0 (below 1e-300 in magnitude) or not finite.
+ */
 export function invertTransform(transform: Transform): Transform {
   const det = determinant(transform.linear);
   if (!(Math.abs(det) > 1e-300) || !Number.isFinite(det)) {
