@@ -1,0 +1,184 @@
+/**
+ * Robust, precision-weighted alignment of one template's frame to another's on
+ * the cells they share.
+ */
+import { FitError, UsageError } from '../errors.js';
+import { precisionMatrix } from '../geometry/covariance.js';
+import { addMatrices, multiply, trace, transpose } from '../geometry/linear-algebra.js';
+import { fitRigid, fitSimilarity, type FitResult } from '../geometry/procrustes.js';
+import { applyToPoint } from '../geometry/transform.js';
+import type { Matrix, Points, Transform } from '../types.js';
+import { chiSquareQuantile } from '../stats/distributions.js';
+
+export interface AlignmentInput {
+  /** Cell means to be moved (template B), k x d. */
+  readonly source: Points;
+  /** Cell means to align to (template A), k x d. */
+  readonly target: Points;
+  /** Covariance of each source mean, Sigma_B / n_B (B's frame), k of d x d. */
+  readonly sourceCovariances: readonly Matrix[];
+  /** Covariance of each target mean, Sigma_A / n_A, k of d x d. */
+  readonly targetCovariances: readonly Matrix[];
+}
+
+export interface RobustAlignmentOptions {
+  /** 'similarity' (rotation, uniform scale, translation; default) or 'rigid' (no scale). */
+  readonly kind?: 'similarity' | 'rigid';
+  /** Maximum reweighting iterations per phase (default 50). */
+  readonly maxIterations?: number;
+  /** Convergence: largest change of any transformed source point, um (default 1e-9). */
+  readonly tolerance?: number;
+  /** Tail probability defining the biweight cut-off (default 0.001: c^2 = chi-square_d quantile 0.999). */
+  readonly cutoffProbability?: number;
+}
+
+export interface RobustAlignmentResult {
+  readonly kind: 'similarity' | 'rigid';
+  /** Maps source (B) coordinates into the target (A) frame. */
+  readonly transform: Transform;
+  readonly fit: FitResult;
+  /** Precision weight of each cell, d / tr(V_i), V_i = Cov(a_i) + c^2 R Cov(b_i) R^T (um^-2). */
+  readonly precisionWeights: number[];
+  /** Final robust weight of each cell in [0, 1] (0 = ignored as displaced). */
+  readonly robustWeights: number[];
+  /** Mahalanobis length of each residual a_i - T(b_i) under V_i (not squared). */
+  readonly standardizedResiduals: number[];
+  /** Robust scale s of the standardized residuals (>= 1; 1 means residuals are as small as the templates' own uncertainty). */
+  readonly residualScale: number;
+  readonly cutoff: number;
+  readonly iterations: number;
+  readonly converged: boolean;
+}
+
+/**
+ * Iteratively reweighted least-squares similarity (or rigid) fit T(b) = c R b + t
+ * of template B's cell means onto template A's, resistant to a minority of
+ * displaced cells.
+ *
+ * Each iteration fits Umeyama's weighted similarity (Umeyama 1991) with weights
+ * w_i = pi_i * omega_i, where
+ *   pi_i    = d / tr(V_i), V_i = Cov(a_i) + c^2 R Cov(b_i) R^T, the isotropic precision
+ *             of the residual (the fit accepts one scalar weight per point);
+ *   m_i     = sqrt(r_i^T V_i^-1 r_i), r_i = a_i - T(b_i), the standardized residual;
+ *   s       = max(1, median(m_i) / sqrt(chi2_d^-1(1/2))), a robust scale (MAD-type) that
+ *             never treats residuals as smaller than the templates' own uncertainty;
+ *   u_i     = m_i / s;
+ *   omega_i = Huber weight min(1, k / u_i), k = sqrt(chi2_d^-1(0.9)), until convergence
+ *             (a convex start), then Tukey's biweight (1 - (u_i / c)^2)^2 for u_i < c,
+ *             0 otherwise, with c^2 = chi2_d^-1(1 - cutoffProbability), until convergence
+ *             (a redescending M-estimator: cells far outside their uncertainty get weight 0
+ *             and do not drag the fit). Huber (1964); Beaton & Tukey (1974);
+ *             Holland & Welsch (1977) for IRLS; Maronna, Martin & Yohai (2006), Robust
+ *             Statistics, sections 2.2 and 4.4.
+ *
+ * Shapes: source and target k x d (d = 2 or 3), covariances k of d x d positive definite.
+ * @throws FitError when fewer than d + 1 cells are shared or keep positive weight, or the
+ *   geometry is degenerate (from the Umeyama fit); UsageError for mismatched shapes.
+ */
+export function fitRobustAlignment(input: AlignmentInput, options: RobustAlignmentOptions = {}): RobustAlignmentResult {
+  const kind = options.kind ?? 'similarity';
+  const maxIterations = options.maxIterations ?? 50;
+  const tolerance = options.tolerance ?? 1e-9;
+  const cutoffProbability = options.cutoffProbability ?? 0.001;
+  const { source, target, sourceCovariances, targetCovariances } = input;
+  const k = source.length;
+  if (target.length !== k || sourceCovariances.length !== k || targetCovariances.length !== k) {
+    throw new UsageError(
+      `fitRobustAlignment: inputs differ in length (source ${k}, target ${target.length}, covariances ${sourceCovariances.length} and ${targetCovariances.length})`,
+    );
+  }
+  if (!(cutoffProbability > 0 && cutoffProbability < 1)) {
+    throw new UsageError(`fitRobustAlignment: cutoffProbability must lie in (0, 1), got ${cutoffProbability}`);
+  }
+  const d = k > 0 ? source[0].length : 0;
+  if (k < d + 1 || k < 3) throw new FitError(`robust alignment needs at least ${Math.max(3, d + 1)} shared cells, got ${k}`);
+  const fitFn = kind === 'rigid' ? fitRigid : fitSimilarity;
+  const huberK = Math.sqrt(chiSquareQuantile(0.9, d));
+  const cutoff = Math.sqrt(chiSquareQuantile(1 - cutoffProbability, d));
+  const medianChi = Math.sqrt(chiSquareQuantile(0.5, d));
+
+  const residualCovariances = (fit: FitResult | null): number[][][] =>
+    source.map((_, i) => {
+      if (!fit) return addMatrices(targetCovariances[i], sourceCovariances[i]);
+      const a = fit.transform.linear;
+      return addMatrices(targetCovariances[i], multiply(multiply(a, sourceCovariances[i]), transpose(a)));
+    });
+  const precisionWeightsOf = (v: number[][][]): number[] => v.map((m) => d / trace(m));
+
+  let v = residualCovariances(null);
+  let pi = precisionWeightsOf(v);
+  let fit = fitFn(source, target, { weights: pi });
+  let omega = new Array<number>(k).fill(1);
+  let m = new Array<number>(k).fill(0);
+  let s = 1;
+  let iterations = 0;
+  let converged = false;
+
+  const update = (phase: 'huber' | 'biweight'): void => {
+    v = residualCovariances(fit);
+    pi = precisionWeightsOf(v);
+    m = source.map((b, i) => {
+      const r = target[i].map((ai, j) => ai - applyToPoint(fit.transform, b)[j]);
+      const p = precisionMatrix(v[i]);
+      let q = 0;
+      for (let x = 0; x < d; x++) for (let y = 0; y < d; y++) q += r[x] * p[x][y] * r[y];
+      return Math.sqrt(Math.max(0, q));
+    });
+    s = Math.max(1, median(m) / medianChi);
+    omega = m.map((mi) => {
+      const u = mi / s;
+      if (phase === 'huber') return u <= huberK ? 1 : huberK / u;
+      return u < cutoff ? (1 - (u / cutoff) ** 2) ** 2 : 0;
+    });
+  };
+
+  for (const phase of ['huber', 'biweight'] as const) {
+    converged = false;
+    for (let it = 0; it < maxIterations; it++) {
+      iterations++;
+      update(phase);
+      const weights = pi.map((p, i) => p * omega[i]);
+      const kept = weights.filter((w) => w > 0).length;
+      if (kept < d + 1) {
+        throw new FitError(`robust alignment kept only ${kept} of ${k} shared cells (need ${d + 1}); the templates differ too much to align`);
+      }
+      const next = fitFn(source, target, { weights });
+      const change = Math.max(
+        ...source.map((b) => {
+          const p1 = applyToPoint(fit.transform, b);
+          const p2 = applyToPoint(next.transform, b);
+          return Math.sqrt(p1.reduce((acc, val, j) => acc + (val - p2[j]) ** 2, 0));
+        }),
+      );
+      fit = next;
+      if (change <= tolerance) {
+        converged = true;
+        break;
+      }
+    }
+  }
+  update('biweight');
+  return {
+    kind,
+    transform: fit.transform,
+    fit,
+    precisionWeights: pi,
+    robustWeights: omega,
+    standardizedResiduals: m,
+    residualScale: s,
+    cutoff,
+    iterations,
+    converged,
+  };
+}
+
+function median(values: readonly number[]): number {
+  const sorted = values.slice().sort((a, b) => a - b);
+  const n = sorted.length;
+  return n % 2 === 1 ? sorted[(n - 1) / 2] : 0.5 * (sorted[n / 2 - 1] + sorted[n / 2]);
+}
+
+/** Covariance of a point under the linear part A of a transform: A Sigma A^T. */
+export function transformCovariance(linear: Matrix, sigma: Matrix): number[][] {
+  return multiply(multiply(linear, sigma), transpose(linear));
+}
