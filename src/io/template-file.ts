@@ -81,7 +81,10 @@ function canonicalMember(m: TemplateMember): Json {
     transform: canonicalTransform(m.transform),
     residual: m.residual,
     labelled: m.labelled,
-    positions: m.positions.map((p) => ({ label: p.label, coords: p.coords.slice() })),
+    positions: m.positions.map((p): Json => {
+      const row = (p as { readonly row?: number }).row;
+      return row === undefined ? { label: p.label, coords: p.coords.slice() } : { label: p.label, coords: p.coords.slice(), row };
+    }),
   };
 }
 
@@ -304,16 +307,18 @@ function readMember(check: JsonChecker, value: unknown, path: string, dim: Dim):
   const transform = readTransform(check, o.transform, `${path}.transform`, dim);
   const residual = check.number(o.residual, `${path}.residual`, { min: 0 });
   const labelled = check.number(o.labelled, `${path}.labelled`, { min: 0, integer: true });
-  const positions: { label: string; coords: number[] }[] = [];
+  const positions: { label: string; coords: number[]; row?: number }[] = [];
   const list = check.array(o.positions, `${path}.positions`);
   if (list) {
     list.forEach((p, i) => {
       const at = `${path}.positions[${i}]`;
-      const po = check.object(p, at, ['label', 'coords']);
+      const po = check.object(p, at, ['label', 'coords'], ['row']);
       if (!po) return;
       const label = check.string(po.label, `${at}.label`);
       const coords = check.vector(po.coords, `${at}.coords`, dim);
-      if (label !== undefined && coords !== undefined) positions.push({ label, coords });
+      const row = po.row === undefined ? undefined : check.number(po.row, `${at}.row`, { min: 1, integer: true });
+      if (label === undefined || coords === undefined || (po.row !== undefined && row === undefined)) return;
+      positions.push(row === undefined ? { label, coords } : { label, coords, row });
     });
   }
   if (check.errors.length > before) return undefined;
