@@ -1,0 +1,15 @@
+import { createRng } from '../../src/random.js';
+import { generateLayout, generateAnimal } from '../support/animals.js';
+import { buildTemplate } from '../../src/template/index.js';
+const rng = createRng(1);
+const layout = generateLayout(rng, { cells: 150, dim: 3 });
+const animals = Array.from({ length: 20 }, (_, i) => generateAnimal(layout, rng, `a${i}`, { labelledFraction: 0.6, wrongLabelFraction: 0.02 }));
+const t0 = Date.now();
+const r = buildTemplate(animals.map((a) => a.sample));
+console.log(Date.now() - t0, 'ms', r.converged, r.iterations.length, r.iterations.slice(-3), r.flagged.length, r.skipped);
+let wrong = 0; for (const a of animals) wrong += a.wrongLabelPoints.length;
+console.log('wrong', wrong, 'cells', r.template.cells.length, r.template.cells.filter(c=>c.sparse).length);
+console.log(r.template.members[0].transform, r.template.pooledCovariance);
+const t1 = Date.now();
+const r2 = buildTemplate(animals.map((a) => a.sample));
+console.log('second', Date.now() - t1);
