@@ -5,7 +5,7 @@
 import { FitError, UsageError } from '../errors.js';
 import { precisionMatrix } from '../geometry/covariance.js';
 import { addMatrices, multiply, trace, transpose } from '../geometry/linear-algebra.js';
-import { fitRigid, fitSimilarity, type FitResult } from '../geometry/procrustes.js';
+import { fitRigid, type FitOptions, type FitResult } from '../geometry/procrustes.js';
 import { applyToPoint } from '../geometry/transform.js';
 import type { Matrix, Points, Transform } from '../types.js';
 import { chiSquareQuantile } from '../stats/distributions.js';
@@ -55,7 +55,8 @@ export interface RobustAlignmentResult {
  * of template B's cell means onto template A's, resistant to a minority of
  * displaced cells.
  *
- * Each iteration fits Umeyama's weighted similarity (Umeyama 1991) with weights
+ * Each iteration fits a weighted similarity with the symmetric scale of Horn (1987)
+ * (fitSymmetricSimilarity; rigid: Umeyama 1991 with c = 1) with weights
  * w_i = pi_i * omega_i, where
  *   pi_i    = d / tr(V_i), V_i = Cov(a_i) + c^2 R Cov(b_i) R^T, the isotropic precision
  *             of the residual (the fit accepts one scalar weight per point);
@@ -70,6 +71,9 @@ export interface RobustAlignmentResult {
  *             and do not drag the fit). Huber (1964); Beaton & Tukey (1974);
  *             Holland & Welsch (1977) for IRLS; Maronna, Martin & Yohai (2006), Robust
  *             Statistics, sections 2.2 and 4.4.
+ *
+ * Every step is symmetric in the two templates: aligning A to B gives exactly the
+ * inverse transform, the same weights and the same standardized residuals.
  *
  * Shapes: source and target k x d (d = 2 or 3), covariances k of d x d positive definite.
  * @throws FitError when fewer than d + 1 cells are shared or keep positive weight, or the
@@ -92,7 +96,7 @@ export function fitRobustAlignment(input: AlignmentInput, options: RobustAlignme
   }
   const d = k > 0 ? source[0].length : 0;
   if (k < d + 1 || k < 3) throw new FitError(`robust alignment needs at least ${Math.max(3, d + 1)} shared cells, got ${k}`);
-  const fitFn = kind === 'rigid' ? fitRigid : fitSimilarity;
+  const fitFn = kind === 'rigid' ? fitRigid : fitSymmetricSimilarity;
   const huberK = Math.sqrt(chiSquareQuantile(0.9, d));
   const cutoff = Math.sqrt(chiSquareQuantile(1 - cutoffProbability, d));
   const medianChi = Math.sqrt(chiSquareQuantile(0.5, d));
@@ -118,7 +122,8 @@ export function fitRobustAlignment(input: AlignmentInput, options: RobustAlignme
     v = residualCovariances(fit);
     pi = precisionWeightsOf(v);
     m = source.map((b, i) => {
-      const r = target[i].map((ai, j) => ai - applyToPoint(fit.transform, b)[j]);
+      const moved = applyToPoint(fit.transform, b);
+      const r = target[i].map((ai, j) => ai - moved[j]);
       const p = precisionMatrix(v[i]);
       let q = 0;
       for (let x = 0; x < d; x++) for (let y = 0; y < d; y++) q += r[x] * p[x][y] * r[y];
@@ -181,4 +186,41 @@ function median(values: readonly number[]): number {
 /** Covariance of a point under the linear part A of a transform: A Sigma A^T. */
 export function transformCovariance(linear: Matrix, sigma: Matrix): number[][] {
   return multiply(multiply(linear, sigma), transpose(linear));
+}
+
+/**
+ * Weighted similarity fit y ~ c R x + t with the symmetric scale of Horn (1987),
+ * J. Opt. Soc. Am. A 4(4):629-642, section 2.E:
+ *
+ *   R = the weighted least-squares rotation (Umeyama 1991 with c = 1),
+ *   c = sqrt( sum_i w_i |y_i - ybar|^2 / sum_i w_i |x_i - xbar|^2 ),  t = ybar - c R xbar
+ *
+ * (weighted means xbar, ybar). Unlike the least-squares scale (Umeyama eq. 42) this
+ * estimate is symmetric: fitting x onto y gives exactly the inverse transform, so
+ * comparing B with A mirrors comparing A with B.
+ *
+ * @throws FitError as fitRigid (degenerate geometry, too few weighted points), or when the
+ *   source spread is zero.
+ */
+export function fitSymmetricSimilarity(source: Points, target: Points, options: FitOptions = {}): FitResult {
+  const rigid = fitRigid(source, target, options);
+  const w = options.weights ?? source.map(() => 1);
+  const total = w.reduce((acc, v) => acc + v, 0);
+  const d = source[0].length;
+  const mean = (pts: Points): number[] => Array.from({ length: d }, (_, j) => pts.reduce((acc, p, i) => acc + w[i] * p[j], 0) / total);
+  const mx = mean(source);
+  const my = mean(target);
+  const spread = (pts: Points, m: number[]): number => pts.reduce((acc, p, i) => acc + w[i] * p.reduce((a2, v, j) => a2 + (v - m[j]) ** 2, 0), 0);
+  const sx = spread(source, mx);
+  if (!(sx > 0)) throw new FitError('fitSymmetricSimilarity: the source points coincide');
+  const scale = Math.sqrt(spread(target, my) / sx);
+  const linear = rigid.rotation.map((row) => row.map((v) => v * scale));
+  const translation = my.map((v, i) => v - linear[i].reduce((acc, a, j) => acc + a * mx[j], 0));
+  const transform: Transform = { kind: 'similarity', linear, translation };
+  const msr =
+    source.reduce((acc, p, i) => {
+      const q = applyToPoint(transform, p);
+      return acc + w[i] * q.reduce((a2, v, j) => a2 + (target[i][j] - v) ** 2, 0);
+    }, 0) / total;
+  return { transform, rotation: rigid.rotation, scale, translation, meanSquaredResidual: msr, reflected: rigid.reflected };
 }

@@ -11,8 +11,8 @@
  *     nu  = (p + p^2) / sum_i (1/n_i) [ tr((V_i V^-1)^2) + (tr(V_i V^-1))^2 ]
  *     F   = (nu - p + 1) / (nu p) T^2  ~  F(p, nu - p + 1) under H0.
  *
- *   (min(n_1, n_2) - 1 <= nu <= n_1 + n_2 - 2.) The formula is written from
- *   memory of the paper and checked against the same formula evaluated in R
+ *   For p = 1 this is Welch's test with n_i in place of n_i - 1 in the
+ *   Satterthwaite degrees of freedom. The formula is written from memory of the paper and checked against the same formula evaluated in R
  *   (test/fixtures/reference/stats-hotelling.json).
  *
  * - `pooled`: Hotelling (1931), Annals of Mathematical Statistics 2:360-378;
