@@ -40,8 +40,7 @@ export class SampleAssembler {
 
   /**
    * Add one point. A label already used in this sample is an error naming both
-   * rows; the point is then not added. `context` is appended to messages
-   * (for example ` in sample "a"` when a file holds several samples).
+   * rows; the point is then not added.
    */
   add(
     row: number,
@@ -50,7 +49,6 @@ export class SampleAssembler {
     features: readonly number[],
     errors: InputError[],
     noun: RowNoun,
-    context = '',
   ): void {
     if (label !== null) {
       const first = this.labelRow.get(label);
@@ -58,7 +56,7 @@ export class SampleAssembler {
         errors.push(
           new InputError(
             { file: this.source, row, column: 'label' },
-            `${JSON.stringify(label)} is used twice in sample ${JSON.stringify(this.id)} (${noun} ${first} and ${row})${context}; a label names one point per sample`,
+            `${JSON.stringify(label)} is used twice in sample ${JSON.stringify(this.id)} (${noun} ${first} and ${row}); a label names one point per sample`,
           ),
         );
         return;
@@ -118,12 +116,8 @@ export function crossSampleErrors(samples: readonly Sample[]): InputError[] {
     }
     const other = seen.get(s.id);
     if (other !== undefined) {
-      errors.push(
-        new InputError(
-          { file: s.source },
-          `sample id ${JSON.stringify(s.id)} is also used by ${other.source}; sample ids must be unique`,
-        ),
-      );
+      const where = other.source === s.source ? `by another sample in the same file` : `by ${other.source}`;
+      errors.push(new InputError({ file: s.source }, `sample id ${JSON.stringify(s.id)} is also used ${where}; sample ids must be unique`));
     } else {
       seen.set(s.id, s);
     }

@@ -201,7 +201,7 @@ function readSample(
     }
     if (!pointOk) continue;
     const count = errors.length;
-    assembler.add(row, coords, label, feats, errors, 'points', context);
+    assembler.add(row, coords, label, feats, errors, 'points');
     if (errors.length > count) ok = false;
   }
   return ok ? assembler.finish(options.voxelSize) : undefined;

@@ -1,0 +1,128 @@
+import { describe, it, expect, beforeEach, afterEach, vi } from 'vitest';
+import * as fs from 'node:fs';
+import * as os from 'node:os';
+import * as path from 'node:path';
+import { InputError } from '../../src/errors.js';
+import { canonicalPath, ensureOutputDir, writeFileAtomic } from '../../src/io/write.js';
+
+/** Lets a test make fs.renameSync fail, to check the clean-up path. */
+const failRename = vi.hoisted(() => ({ on: false, from: '' }));
+vi.mock('node:fs', async (importOriginal) => {
+  const real = await importOriginal<typeof import('node:fs')>();
+  const renameSync = (from: import('node:fs').PathLike, to: import('node:fs').PathLike) => {
+    if (failRename.on) {
+      failRename.from = String(from);
+      throw Object.assign(new Error('simulated failure'), { code: 'EIO' });
+    }
+    return real.renameSync(from, to);
+  };
+  return { ...real, default: { ...real, renameSync }, renameSync };
+});
+
+let dir: string;
+const at = (name: string) => path.join(dir, name);
+
+beforeEach(() => {
+  dir = fs.mkdtempSync(path.join(os.tmpdir(), 'cairn-write-'));
+});
+
+afterEach(() => {
+  fs.rmSync(dir, { recursive: true, force: true });
+});
+
+function messageOf(f: () => unknown): string {
+  try {
+    f();
+  } catch (e) {
+    if (e instanceof InputError) return e.message;
+    throw e;
+  }
+  throw new Error('expected an InputError');
+}
+
+/** Files in the test folder, temporary files included. */
+const listing = () => fs.readdirSync(dir).sort();
+
+describe('writeFileAtomic', () => {
+  it('writes the content and leaves no temporary file behind', () => {
+    writeFileAtomic(at('out.csv'), 'x,y\n1,2\n');
+    expect(fs.readFileSync(at('out.csv'), 'utf8')).toBe('x,y\n1,2\n');
+    expect(listing()).toEqual(['out.csv']);
+    writeFileAtomic(at('bytes.bin'), new Uint8Array([0, 255]));
+    expect([...fs.readFileSync(at('bytes.bin'))]).toEqual([0, 255]);
+  });
+
+  it('refuses to replace an existing file unless forced', () => {
+    fs.writeFileSync(at('out.csv'), 'old');
+    expect(messageOf(() => writeFileAtomic(at('out.csv'), 'new'))).toBe(`${at('out.csv')}: exists; use --force to overwrite`);
+    expect(fs.readFileSync(at('out.csv'), 'utf8')).toBe('old');
+    writeFileAtomic(at('out.csv'), 'new', { force: true });
+    expect(fs.readFileSync(at('out.csv'), 'utf8')).toBe('new');
+    expect(listing()).toEqual(['out.csv']);
+  });
+
+  it('refuses an output equal to an input, even with --force, through another spelling or a symbolic link, and writes nothing', () => {
+    fs.writeFileSync(at('sample.csv'), 'x,y\n1,2\n');
+    fs.symlinkSync(at('sample.csv'), at('link.csv'));
+    const spellings = [at('sample.csv'), path.join(dir, '.', 'sub', '..', 'sample.csv'), at('link.csv')];
+    for (const target of spellings) {
+      expect(messageOf(() => writeFileAtomic(target, 'overwritten', { force: true, inputs: [at('sample.csv')] }))).toBe(
+        `${target}: is also an input (${at('sample.csv')}); refusing to overwrite an input, choose another output path`,
+      );
+    }
+    expect(fs.readFileSync(at('sample.csv'), 'utf8')).toBe('x,y\n1,2\n');
+    expect(listing()).toEqual(['link.csv', 'sample.csv']);
+  });
+
+  it('accepts an output that merely shares a name with an input in another folder', () => {
+    fs.mkdirSync(at('in'));
+    fs.writeFileSync(at('in/a.csv'), 'x');
+    writeFileAtomic(at('a.csv'), 'y', { inputs: [at('in/a.csv')] });
+    expect(fs.readFileSync(at('a.csv'), 'utf8')).toBe('y');
+  });
+
+  it('refuses a folder as target and a target in a missing folder', () => {
+    fs.mkdirSync(at('sub'));
+    expect(messageOf(() => writeFileAtomic(at('sub'), 'x', { force: true }))).toBe(`${at('sub')}: is a folder; give a file name to write`);
+    expect(messageOf(() => writeFileAtomic(at('nope/out.csv'), 'x'))).toBe(`${at('nope/out.csv')}: cannot write: the folder ${at('nope')} does not exist`);
+    expect(listing()).toEqual(['sub']);
+  });
+
+  it('removes its temporary file and keeps the old content when the rename fails', () => {
+    fs.writeFileSync(at('target'), 'old');
+    failRename.on = true;
+    try {
+      expect(messageOf(() => writeFileAtomic(at('target'), 'new', { force: true }))).toBe(`${at('target')}: cannot write (EIO)`);
+    } finally {
+      failRename.on = false;
+    }
+    expect(path.dirname(failRename.from)).toBe(dir);
+    expect(path.basename(failRename.from)).toMatch(new RegExp(`^\\.cairn-tmp-${process.pid}-[0-9a-f]{12}-target$`));
+    expect(fs.readFileSync(at('target'), 'utf8')).toBe('old');
+    expect(listing()).toEqual(['target']);
+  });
+});
+
+describe('ensureOutputDir', () => {
+  it('creates a missing folder with its parents and accepts an existing one', () => {
+    ensureOutputDir(at('out/deep'));
+    expect(fs.statSync(at('out/deep')).isDirectory()).toBe(true);
+    ensureOutputDir(at('out/deep'));
+  });
+
+  it('refuses an existing file and an input', () => {
+    fs.writeFileSync(at('file'), 'x');
+    expect(messageOf(() => ensureOutputDir(at('file')))).toBe(`${at('file')}: exists and is not a folder; give a folder for the outputs`);
+    expect(messageOf(() => ensureOutputDir(at('file'), { inputs: [at('file')] }))).toBe(
+      `${at('file')}: is also an input (${at('file')}); refusing to overwrite an input, choose another output path`,
+    );
+  });
+});
+
+describe('canonicalPath', () => {
+  it('resolves the existing part of a path through symbolic links and keeps the rest', () => {
+    fs.mkdirSync(at('real'));
+    fs.symlinkSync(at('real'), at('alias'));
+    expect(canonicalPath(path.join(dir, 'alias', 'new', 'file.csv'))).toBe(path.join(fs.realpathSync(at('real')), 'new', 'file.csv'));
+  });
+});
