@@ -281,6 +281,13 @@ describe('parseTemplate', () => {
 });
 
 describe('readTemplate', () => {
+  it('reads the committed example file test/fixtures/bad/template-valid.json, whose bytes serializeTemplate reproduces', () => {
+    const file = new URL('../fixtures/bad/template-valid.json', import.meta.url);
+    const t = readTemplate(file.pathname);
+    expect(t).toEqual(exampleTemplate2d());
+    expect(serializeTemplate(t)).toBe(fs.readFileSync(file, 'utf8'));
+  });
+
   it('reads a file written by serializeTemplate and names the path in errors', () => {
     const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'cairn-template-'));
     try {
