@@ -179,9 +179,9 @@ svg.cairn-figure { display: block; }
 svg.cairn-figure g.cell:hover ellipse { stroke-width: 2.6; fill-opacity: 0.35; }
 svg.cairn-figure g.cell:hover circle, svg.cairn-figure g.point:hover circle { stroke: #000; stroke-width: 1.5; }
 .table-wrap { overflow: auto; max-height: 640px; border: 1px solid #d6d6d6; width: fit-content; max-width: 100%; }
-table { border-collapse: collapse; font-size: 0.84em; font-variant-numeric: tabular-nums; width: auto; min-width: 50%; }
+table { border-collapse: collapse; font-size: 0.82em; font-variant-numeric: tabular-nums; width: auto; min-width: 50%; }
 caption { text-align: left; padding: 6px 8px; color: #444; caption-side: top; }
-th, td { padding: 3px 7px; border-bottom: 1px solid #ececec; text-align: left; white-space: nowrap; }
+th, td { padding: 3px 6px; border-bottom: 1px solid #ececec; text-align: left; white-space: nowrap; }
 th { position: sticky; top: 0; background: #f1f1f1; font-weight: 600; border-bottom: 1px solid #bdbdbd; }
 th.num, td.num { text-align: right; }
 td.missing { color: #999; }
