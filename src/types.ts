@@ -110,6 +110,12 @@ export interface TemplateSettings {
   readonly flagProbability: number;
   /** Robust weight function used for the consensus. */
   readonly robust: string;
+  /**
+   * Direction in which each member's map is estimated: 'template-to-sample' (fit the
+   * template onto the member, then invert; the default when absent) or
+   * 'sample-to-template' (ordinary generalised Procrustes).
+   */
+  readonly memberFit?: 'template-to-sample' | 'sample-to-template';
 }
 
 export interface Template {

@@ -24,12 +24,12 @@
  * returned.
  */
 import { FitError } from '../errors.js';
-import { applyTransform, fitTransform, mahalanobisSquared, precisionMatrix } from '../geometry/index.js';
+import { applyTransform, mahalanobisSquared, precisionMatrix } from '../geometry/index.js';
 import type { FlaggedLabel, Sample, Template, TemplateMember, Transform } from '../types.js';
 import { assembleTemplate, entryFromMember, entryFromSample, registerAndSummarise } from './build.js';
 import { addObservationInPlace, cellsFromSums, emptySums, predictiveCovariance, type CellSums } from './cell-statistics.js';
 import { chiSquareQuantile } from './chi-square.js';
-import { minAlignmentPoints, type LabelledEntry, type SkippedSample } from './co-register.js';
+import { fitMemberMap, minAlignmentPoints, type LabelledEntry, type SkippedSample } from './co-register.js';
 import { likelierCell } from './hand-labels.js';
 import { resolveSettings, type BuildOptions } from './settings.js';
 
@@ -138,7 +138,7 @@ export function addToTemplate(template: Template, samples: readonly Sample[], op
           src.push(e.coords[j]);
           dst.push((cellByLabel.get(l) as { mean: readonly number[] }).mean);
         });
-        transform = fitTransform(kind, src, dst).transform;
+        transform = fitMemberMap(kind, src, dst, settings.memberFit ?? 'template-to-sample');
         aligned = applyTransform(transform, e.coords);
         dist = e.labels.map((l, j) => (shared[j] ? Math.sqrt(mahalanobisSquared(aligned[j], cellByLabel.get(l)!.mean, precision.get(l)!)) : Number.NaN));
         if (settings.robust !== 'trimmed') break;

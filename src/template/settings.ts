@@ -26,6 +26,13 @@ export interface BuildOptions {
    * residuals; 'none': ordinary generalised Procrustes, nothing flagged.
    */
   readonly robust?: RobustMethod;
+  /**
+   * 'template-to-sample' (default): each member's map is the inverse of the least-squares
+   * map taking the template onto the member (the template is nearly free of jitter, so the
+   * scale is not shrunk by the member's jitter). 'sample-to-template': the member is
+   * regressed onto the template, as in ordinary generalised Procrustes (Gower 1975).
+   */
+  readonly memberFit?: 'template-to-sample' | 'sample-to-template';
 }
 
 export const DEFAULT_SETTINGS: TemplateSettings = {
@@ -36,6 +43,7 @@ export const DEFAULT_SETTINGS: TemplateSettings = {
   priorStrength: 5,
   flagProbability: 0.001,
   robust: 'trimmed',
+  memberFit: 'template-to-sample',
 };
 
 /** Merge options over a base (the defaults, or a template's own settings) and check them. */
@@ -50,6 +58,7 @@ export function resolveSettings(options: BuildOptions = {}, base: TemplateSettin
     priorStrength: pick('priorStrength'),
     flagProbability: pick('flagProbability'),
     robust: pick('robust'),
+    memberFit: options.memberFit ?? base.memberFit ?? 'template-to-sample',
   };
   if (!(s.tolerance >= 0) || !Number.isFinite(s.tolerance)) throw new UsageError(`tolerance must be a finite number >= 0, got ${s.tolerance}`);
   if (!Number.isInteger(s.maxIterations) || s.maxIterations < 1) throw new UsageError(`maxIterations must be an integer >= 1, got ${s.maxIterations}`);
@@ -58,5 +67,11 @@ export function resolveSettings(options: BuildOptions = {}, base: TemplateSettin
   if (!(s.priorStrength > 0) || !Number.isFinite(s.priorStrength)) throw new UsageError(`priorStrength must be a finite number > 0, got ${s.priorStrength}`);
   if (!(s.flagProbability > 0 && s.flagProbability < 1)) throw new UsageError(`flagProbability must be in (0, 1), got ${s.flagProbability}`);
   if (s.robust !== 'trimmed' && s.robust !== 'none') throw new UsageError(`robust must be trimmed or none, got ${s.robust}`);
+  if (s.memberFit !== 'template-to-sample' && s.memberFit !== 'sample-to-template') {
+    throw new UsageError(`memberFit must be template-to-sample or sample-to-template, got ${s.memberFit}`);
+  }
   return s;
 }
+
+/** Fit the member map (own coordinates -> template) in the direction the settings ask for. */
+export type MemberFitDirection = NonNullable<TemplateSettings['memberFit']>;

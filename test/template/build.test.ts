@@ -1,27 +1,12 @@
 import { describe, it, expect } from 'vitest';
 import fc from 'fast-check';
-import { readFileSync } from 'node:fs';
-import Ajv2020 from 'ajv/dist/2020.js';
 import { buildTemplate } from '../../src/template/build.js';
-import { centroidSize } from '../../src/template/frame.js';
-import { applyTransform } from '../../src/geometry/index.js';
-import { serializeTemplate } from '../../src/io/template-file.js';
+import { applyTransform, fitSimilarity } from '../../src/geometry/index.js';
 import { createRng, randomRotation, shuffle } from '../../src/random.js';
 import { VERSION } from '../../src/version.js';
 import type { Sample, Template } from '../../src/types.js';
 import { generateAnimal, generateLayout } from '../support/animals.js';
-import { readGpaFixture, sampleFromConfiguration, moved } from './helpers.js';
-
-const schema = JSON.parse(readFileSync(new URL('../../docs/template.schema.json', import.meta.url), 'utf8'));
-const ajv = new (Ajv2020 as unknown as typeof Ajv2020.default)({ allErrors: true, strict: false });
-const validate = ajv.compile(schema);
-
-/** Validate the serialised template against docs/template.schema.json (ajv 8, draft 2020-12). */
-export function expectSchemaValid(t: Template): void {
-  const ok = validate(JSON.parse(serializeTemplate(t)));
-  expect(validate.errors ?? []).toEqual([]);
-  expect(ok).toBe(true);
-}
+import { expectSchemaValid, readGpaFixture, sampleFromConfiguration, moved } from './helpers.js';
 
 /** A 3-D set with missing labels: the procGPA fixture's configurations, each missing two cells. */
 function partialSet(): Sample[] {
@@ -53,7 +38,7 @@ describe('buildTemplate', () => {
     expect(template.dim).toBe(3);
     expect(template.tool).toEqual({ name: 'cairn', version: VERSION });
     expect(template.created).toBeUndefined();
-    expect(template.settings).toEqual({ tolerance: 1e-11, maxIterations: 500, alignment: 'similarity', minCount: 5, priorStrength: 5, flagProbability: 0.001, robust: 'trimmed' });
+    expect(template.settings).toEqual({ tolerance: 1e-11, maxIterations: 500, alignment: 'similarity', minCount: 5, priorStrength: 5, flagProbability: 0.001, robust: 'trimmed', memberFit: 'template-to-sample' });
     expect(template.members.map((m) => m.id)).toEqual(partialSet().map((s) => s.id));
   });
 
@@ -136,7 +121,8 @@ describe('buildTemplate properties (fast-check, seed 20261201)', () => {
   });
 
   it('changes only the size when one sample is scaled by s: means by 1 + (s - 1) rho_j / N, covariances by its square (to 1e-6)', () => {
-    // rho_j = CS(sample j) / CS(template means on the same cells): the size rule of co-register.ts with every label kept.
+    // rho_j = scale of the similarity taking the template's cells onto sample j: the size rule of co-register.ts
+    // (mean over members of rho_i is 1; scaling sample j by s scales rho_j by s and nothing else).
     const ordinary = { ...tight, robust: 'none' as const };
     const ref = buildTemplate(base, ordinary).template;
     fc.assert(
@@ -144,7 +130,7 @@ describe('buildTemplate properties (fast-check, seed 20261201)', () => {
         const member = ref.members.find((m) => m.id === base[j].id)!;
         const own = member.positions.map((p) => p.coords);
         const cons = member.positions.map((p) => ref.cells.find((c) => c.label === p.label)!.mean);
-        const rho = centroidSize(own) / centroidSize(cons);
+        const rho = fitSimilarity(cons, own).scale;
         const lambda = 1 + ((s - 1) * rho) / base.length;
         const changed = base.map((x, k) => (k === j ? { ...x, coords: x.coords.map((p) => p.map((v) => v * s)) } : x));
         expectCellsClose(ref, buildTemplate(changed, ordinary).template, 6, lambda);

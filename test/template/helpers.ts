@@ -1,6 +1,20 @@
 /** Small helpers shared by the template tests (not a test file). */
 import { readFileSync } from 'node:fs';
-import type { Dim, Sample } from '../../src/types.js';
+import { expect } from 'vitest';
+import Ajv2020 from 'ajv/dist/2020.js';
+import { serializeTemplate } from '../../src/io/template-file.js';
+import type { Dim, Sample, Template } from '../../src/types.js';
+
+const schema = JSON.parse(readFileSync(new URL('../../docs/template.schema.json', import.meta.url), 'utf8'));
+const ajv = new (Ajv2020 as unknown as typeof Ajv2020.default)({ allErrors: true, strict: false });
+const validate = ajv.compile(schema);
+
+/** Validate the serialised template against docs/template.schema.json (ajv 8, draft 2020-12). */
+export function expectSchemaValid(t: Template): void {
+  const ok = validate(JSON.parse(serializeTemplate(t)));
+  expect(validate.errors ?? []).toEqual([]);
+  expect(ok).toBe(true);
+}
 
 export interface GpaFixture {
   source: string;
