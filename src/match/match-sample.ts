@@ -1,0 +1,645 @@
+/**
+ * Label proposals for one sample against a template: the matcher's public
+ * entry point. Stages (docs/algorithms.md, "Matching"):
+ *
+ * 1. Pose search (sample -> template similarity):
+ *    - 'ransac' (default): orientation-invariant descriptors rank point-cell
+ *      candidates; PROSAC-ordered, geometrically consistent minimal sets;
+ *      Gaussian-plus-uniform likelihood score (MLESAC) on a tabulated template
+ *      density; EM local optimisation of every new best; adaptive stopping.
+ *      1-D and tiny problems enumerate every minimal set instead (exact).
+ *      Labels already in the sample are fixed pairs that seed every hypothesis.
+ *    - 'icp' / 'cpd': the baselines' own alignment (no search, no refinement).
+ * 2. Refinement of the best distinct poses (and their half-turns about the
+ *    template's principal axes, which the nearly symmetric shape of a head
+ *    leaves ambiguous) by softassign EM: one-to-one posterior correspondences
+ *    (softassign.ts), similarity then affine, with annealed cell widths; the
+ *    pose with the largest one-to-one matching likelihood wins.
+ * 3. An optional smooth non-rigid correction (refine.ts).
+ * 4. One-to-one assignment with a no-label option on the pair gains (the
+ *    negative log-likelihood costs of softassign.ts), given labels kept fixed;
+ *    the confidence of each proposal is its posterior marginal.
+ *
+ * Everything random draws from `options.rng`; the same seed gives the same result.
+ */
+import { FitError, UsageError } from '../errors.js';
+import { composeTransforms, fitTransform, invertTransform, symmetricEigen } from '../geometry/index.js';
+import { createRng, type Rng } from '../random.js';
+import type { Points, Sample, Template, Transform } from '../types.js';
+import { isPlausible, type Plausibility } from './affine-flat.js';
+import { assignWithAbstention } from './assignment.js';
+import { buildCellGrid, type CellGrid } from './cell-grid.js';
+import { buildCellModel, type CellModel } from './cell-model.js';
+import { buildDensityGrid, boundingVolume, determinantFlat, MixtureScorer, type DensityGrid } from './density-grid.js';
+import { learnCellDescriptors, rankCandidates, rankNormalize, rawDescriptors, type CellDescriptors } from './descriptors.js';
+import { exhaustiveHypotheses, isTinyProblem } from './exhaustive.js';
+import { emRefine, mapPoints, nonRigidCorrect, type MixtureContext } from './refine.js';
+import { searchPose, poseDistance, type Pair, type PoseEstimate, type SearchResult } from './ransac.js';
+import { toFlat } from './affine-flat.js';
+import { greedyMatchingGain, pairGains, sinkhorn, type MatchModelParameters, type PairGains } from './softassign.js';
+
+/** Default hit radius nu (Mahalanobis units): a proposal within nu of its cell counts as a hit. */
+export const DEFAULT_HIT_RADIUS = 2.5;
+/** Default cap on RANSAC trials. */
+export const DEFAULT_MAX_TRIALS = 1500;
+/** Default plausible scale range of the sample -> template map (template kept at the average animal's size). */
+export const DEFAULT_SCALE_RANGE: readonly [number, number] = [0.75, 1.33];
+
+export interface MatchOptions {
+  rng: Rng;
+  method?: 'ransac' | 'icp' | 'cpd';
+  /** Hit radius nu in Mahalanobis units (default DEFAULT_HIT_RADIUS). */
+  hitRadius?: number;
+  /** Cap on hypotheses (default DEFAULT_MAX_TRIALS). */
+  maxTrials?: number;
+  /** Smooth non-rigid correction after the affine fit (default DEFAULT_NON_RIGID). */
+  nonRigid?: boolean;
+  /** Proposals whose confidence is below this are left unlabelled (default 0: keep every assignment). */
+  abstainBelow?: number;
+  /** Plausible scale range of the sample -> template map (default DEFAULT_SCALE_RANGE). */
+  scaleRange?: readonly [number, number];
+}
+
+export interface Proposal {
+  label: string | null;
+  /** Posterior probability of the proposed label; for an unlabelled point, of its being no template cell. Given labels: 1. */
+  confidence: number;
+  /** Mahalanobis distance to the proposed cell (null when unlabelled). */
+  distance: number | null;
+  /** Top 3 labels by posterior, including the proposal. */
+  alternatives: { label: string; probability: number }[];
+}
+
+export interface MatchResult {
+  sampleId: string;
+  method: string;
+  proposals: Proposal[];
+  /** Sample -> template frame (the affine part; a non-rigid correction, when applied, comes on top). */
+  transform: Transform;
+  /** Proposals within the hit radius of their cell. */
+  hits: number;
+  /** Log-likelihood ratio of the final labelling against "all points are outliers" (sum of pair gains). */
+  score: number;
+  trials: number;
+  stopReason: string;
+  nonRigid: boolean;
+}
+
+/** Whether the non-rigid correction is on by default (chosen on the accuracy suite; see docs/algorithms.md). */
+export const DEFAULT_NON_RIGID = true;
+
+/** Template-derived structures, computed once per template object. */
+export interface PreparedTemplate {
+  readonly model: CellModel;
+  readonly descriptors: CellDescriptors;
+  readonly density: DensityGrid;
+  /** Cell lists for pair gains, radius 3.5 sqrt(MAX_INFLATION). */
+  readonly pairGrid: CellGrid;
+  /** Principal axes of the template means (columns) and their centroid. */
+  readonly axes: number[][];
+  readonly centroid: number[];
+}
+
+const MAX_INFLATION = 2;
+/** Test-only inspection of the stages (unset in normal use). */
+export let debugHook: ((info: Record<string, unknown>) => void) | null = null;
+export function setDebugHook(h: ((info: Record<string, unknown>) => void) | null): void {
+  debugHook = h;
+}
+const cache = new WeakMap<Template, PreparedTemplate>();
+
+/**
+ * Precompute what matching needs from a template (cached per template object).
+ * Deterministic: the pseudo-animals used when members carry no positions come
+ * from a fixed internal seed.
+ */
+export function prepareTemplate(template: Template): PreparedTemplate {
+  const hit = cache.get(template);
+  if (hit) return hit;
+  const model = buildCellModel(template);
+  const descriptors = learnCellDescriptors(template, model, createRng(0x5eed));
+  const density = buildDensityGrid(model);
+  const pairGrid = buildCellGrid(model, 3.5 * Math.sqrt(MAX_INFLATION));
+  const d = model.dim;
+  const centroid = new Array<number>(d).fill(0);
+  for (const m of model.meanRows) for (let a = 0; a < d; a++) centroid[a] += m[a] / model.size;
+  const scatter = Array.from({ length: d }, () => new Array<number>(d).fill(0));
+  for (const m of model.meanRows) for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) scatter[a][b] += (m[a] - centroid[a]) * (m[b] - centroid[b]);
+  const axes = symmetricEigen(scatter).vectors;
+  const prepared = { model, descriptors, density, pairGrid, axes, centroid };
+  cache.set(template, prepared);
+  return prepared;
+}
+
+function checkInputs(template: Template, sample: Sample, options: MatchOptions): void {
+  if (typeof options?.rng !== 'function') throw new UsageError('matchSample: options.rng is required');
+  if (sample.dim !== template.dim && !(sample.coords[0]?.length === template.dim)) {
+    throw new UsageError(`matchSample: sample ${sample.id} is ${sample.dim}-D but the template is ${template.dim}-D`);
+  }
+  if (sample.coords.length === 0) throw new UsageError(`matchSample: sample ${sample.id} has no points`);
+  const r = options.hitRadius ?? DEFAULT_HIT_RADIUS;
+  if (!(r > 0) || !Number.isFinite(r)) throw new UsageError(`matchSample: hitRadius must be a positive number, got ${r}`);
+  const t = options.maxTrials ?? DEFAULT_MAX_TRIALS;
+  if (!Number.isInteger(t) || t < 1) throw new UsageError(`matchSample: maxTrials must be a positive integer, got ${t}`);
+  const a = options.abstainBelow ?? 0;
+  if (!(a >= 0 && a <= 1)) throw new UsageError(`matchSample: abstainBelow must be in [0, 1], got ${a}`);
+  const s = options.scaleRange ?? DEFAULT_SCALE_RANGE;
+  if (!(s[0] > 0 && s[1] >= s[0])) throw new UsageError(`matchSample: scaleRange must satisfy 0 < low <= high, got [${s[0]}, ${s[1]}]`);
+}
+
+/** A coarse pose source for the baselines: called with the template means and the sample points. */
+export type BaselineAligner = (templateMeans: Points, samplePoints: Points, rng: Rng) => Transform;
+
+const baselines = new Map<string, BaselineAligner>();
+
+/** Register the alignment used by `method: 'icp' | 'cpd'` (done by src/match/baselines.ts). */
+export function registerBaseline(name: 'icp' | 'cpd', aligner: BaselineAligner): void {
+  baselines.set(name, aligner);
+}
+
+/**
+ * Propose a label for every point of `sample` (see the module comment).
+ * @throws UsageError for bad options or a sample of the wrong dimension.
+ * @throws FitError when no plausible pose exists (for example fewer points than the pose needs).
+ */
+export function matchSample(template: Template, sample: Sample, options: MatchOptions): MatchResult {
+  checkInputs(template, sample, options);
+  const method = options.method ?? 'ransac';
+  const prepared = prepareTemplate(template);
+  const { model } = prepared;
+  const d = model.dim;
+  const points = sample.coords;
+  const n = points.length;
+  const limits: Plausibility = { scaleRange: options.scaleRange ?? DEFAULT_SCALE_RANGE, maxAnisotropy: 1.5 };
+  const affineLimits: Plausibility = { scaleRange: limits.scaleRange, maxAnisotropy: 1.35 };
+  const nonRigid = options.nonRigid ?? DEFAULT_NON_RIGID;
+  const radius = options.hitRadius ?? DEFAULT_HIT_RADIUS;
+
+  // Given labels -> fixed pairs (first occurrence of a label wins; the reader rejects duplicates anyway).
+  const fixed: Pair[] = [];
+  const fixedCell = new Map<number, number>();
+  const usedCells = new Set<number>();
+  sample.labels.forEach((label, i) => {
+    if (label === null) return;
+    const k = model.labelIndex.get(label);
+    if (k === undefined || usedCells.has(k)) return;
+    usedCells.add(k);
+    fixed.push({ point: i, cell: k });
+    fixedCell.set(i, k);
+  });
+
+  const outlierDensity = 1 / boundingVolume(points);
+  const searchShare = 0.25;
+  const mixture = new MixtureScorer(prepared.density, points, searchShare);
+  const ctx: MixtureContext = { model, grid: prepared.pairGrid, outlierShare: searchShare, outlierDensity };
+  const objective = {
+    score: (t: Transform) => mixture.score(toFlat(t)),
+    optimise: (e: PoseEstimate): PoseEstimate => {
+      const r = emRefine(ctx, points, e.transform, 'similarity', limits, 4);
+      const s = mixture.score(toFlat(r.transform));
+      return s.score >= e.score ? { transform: r.transform, score: s.score, hits: s.hits } : e;
+    },
+  };
+
+  let starts: PoseEstimate[] = [];
+  let trials = 0;
+  let stopReason = '';
+  if (method === 'ransac') {
+    if (isTinyProblem(d, n, model.size) || n < d + 1) {
+      const top: PoseEstimate[] = [];
+      trials = exhaustiveHypotheses(model, points, limits, (t) => {
+        const s = objective.score(t);
+        top.push({ transform: t, score: s.score, hits: s.hits });
+      });
+      if (fixed.length >= Math.max(2, d)) {
+        const t = fitFixed(model, points, fixed, limits);
+        if (t) {
+          const s = objective.score(t);
+          top.push({ transform: t, score: s.score, hits: s.hits });
+        }
+      }
+      top.sort((a, b) => b.score - a.score);
+      starts = distinctTop(top.slice(0, 200).map((e) => objective.optimise(e)), points, 8);
+      stopReason = 'exhaustive';
+    } else {
+      const z = rankNormalize(rawDescriptors(points, prepared.descriptors.spec));
+      const candidates = rankCandidates(z, prepared.descriptors, Math.min(model.size, 40));
+      const search: SearchResult = searchPose(model, objective, points, candidates, {
+        rng: options.rng,
+        maxTrials: options.maxTrials ?? DEFAULT_MAX_TRIALS,
+        minTrials: Math.min(200, options.maxTrials ?? DEFAULT_MAX_TRIALS),
+        limits,
+        firstCandidates: 12,
+        fixed,
+        keep: 8,
+      });
+      starts = search.alternatives.slice();
+      trials = search.trials;
+      stopReason = search.stopReason;
+    }
+  } else {
+    const aligner = baselines.get(method);
+    if (!aligner) throw new UsageError(`matchSample: method "${method}" is not available`);
+    const t = aligner(model.meanRows, points, options.rng);
+    const s = objective.score(t);
+    starts = [{ transform: t, score: s.score, hits: s.hits }];
+    trials = 1;
+    stopReason = 'baseline';
+  }
+  if (starts.length === 0) throw new FitError(`sample ${sample.id}: no plausible pose found`);
+
+  // Stage 2: softassign refinement of the candidates (and half-turn variants for the search).
+  let params: MatchModelParameters = {
+    detection: 0.85,
+    outliers: Math.max(1, n - 0.85 * model.size),
+    outlierDensity,
+  };
+  const refineOne = (t: Transform, kinds: Transform['kind'][], exact = false): { transform: Transform; gain: number; params: MatchModelParameters } => {
+    let cur = t;
+    let p = params;
+    for (const kind of kinds) {
+      const r = softassignRefine(model, prepared.pairGrid, points, cur, kind, kind === 'affine' ? affineLimits : limits, p, fixed);
+      cur = r.transform;
+      p = r.params;
+    }
+    // Poses are compared under one fixed model (rho, Lambda of the start), so that gains are comparable.
+    const g = pairGains(model, prepared.pairGrid, mapPoints(cur, points), jacobianOf(cur), params);
+    return { transform: cur, gain: (exact ? exactMatchingGain(g, n, model.size) : greedyMatchingGain(g, n, model.size)) + fixedGain(g, fixed), params: p };
+  };
+  let candidates: Transform[] = starts.map((s) => s.transform);
+  if (method === 'ransac' && d >= 2) {
+    const flips = halfTurns(prepared.axes, prepared.centroid);
+    const extra: Transform[] = [];
+    for (const s of starts.slice(0, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
+    candidates = candidates.concat(extra);
+  }
+  // Quick screen: a short similarity refinement of every candidate, then the full one for the best three.
+  const screened = candidates
+    .map((t) => refineOne(t, ['similarity']))
+    .sort((a, b) => b.gain - a.gain);
+  let best = screened[0];
+  let finalistsDebug: unknown = null;
+  if (method === 'ransac') {
+    const finalists = distinctTransforms(screened.map((s) => s.transform), points, 3);
+    const refined = finalists.map((t) => refineOne(t, ['similarity', 'affine'], true));
+    finalistsDebug = refined.map((r) => ({ t: r.transform, gain: r.gain }));
+    best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
+  } else {
+    best = refineOne(screened[0].transform, ['affine']);
+  }
+  params = best.params;
+  const transform = best.transform;
+  if (debugHook) debugHook({ starts: starts.map((s) => s.transform), screened: screened.map((s) => ({ t: s.transform, gain: s.gain })), best: best.transform, bestGain: best.gain, finalists: finalistsDebug });
+  let mapped = mapPoints(transform, points);
+  const jac = jacobianOf(transform);
+
+  // Stage 3: non-rigid correction.
+  let nonRigidApplied = false;
+  if (nonRigid && n >= 2 * (d + 1)) {
+    const spacing = typicalSpacing(model);
+    const estep = (y: Points) => {
+      const g = pairGains(model, prepared.pairGrid, y, jac, params);
+      const mg = sinkhorn(g, n, model.size, 40);
+      const expected: (number[] | null)[] = [];
+      const weight: number[] = [];
+      for (let i = 0; i < n; i++) {
+        const m = new Array<number>(d).fill(0);
+        let w = 0;
+        for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) {
+          const k = g.cells[j];
+          const pw = fixedCell.has(i) ? (k === fixedCell.get(i) ? 1 : 0) : mg.pair[j];
+          w += pw;
+          for (let a = 0; a < d; a++) m[a] += pw * model.means[k * d + a];
+        }
+        if (w > 1e-9) {
+          expected.push(m.map((v) => v / w));
+          weight.push(w);
+        } else {
+          expected.push(null);
+          weight.push(0);
+        }
+      }
+      return { expected, weight, objective: greedyMatchingGain(g, n, model.size) };
+    };
+    const nr = nonRigidCorrect(estep, mapped, 6 * spacing, 8, 4);
+    if (nr.iterations > 0) {
+      mapped = nr.mapped;
+      nonRigidApplied = true;
+    }
+  }
+
+  // Stage 4: assignment and posteriors.
+  const gains = pairGains(model, prepared.pairGrid, mapped, jac, params);
+  const proposals = assignAndScore(model, gains, mapped, fixedCell, sample.labels, radius, options.abstainBelow ?? 0);
+  let hits = 0, score = 0;
+  proposals.forEach((p, i) => {
+    if (p.label !== null && p.distance !== null && p.distance < radius) hits++;
+    const k = p.label === null ? undefined : model.labelIndex.get(p.label);
+    if (k !== undefined) for (let j = gains.rowStart[i]; j < gains.rowStart[i + 1]; j++) if (gains.cells[j] === k) score += gains.gains[j];
+  });
+  return {
+    sampleId: sample.id,
+    method,
+    proposals,
+    transform,
+    hits,
+    score,
+    trials,
+    stopReason,
+    nonRigid: nonRigidApplied,
+  };
+}
+
+/** max sum g_ik over one-to-one matchings (pairs with g_ik > 0), by the linear assignment solver. */
+function exactMatchingGain(g: PairGains, points: number, cells: number): number {
+  const cost: number[][] = [];
+  for (let i = 0; i < points; i++) {
+    const row = new Array<number>(cells).fill(Infinity);
+    for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) if (g.gains[j] > 0) row[g.cells[j]] = -g.gains[j];
+    cost.push(row);
+  }
+  return -assignWithAbstention(cost, new Array<number>(points).fill(0)).total;
+}
+
+function jacobianOf(t: Transform): number {
+  return Math.abs(determinantFlat(toFlat(t).a, t.translation.length));
+}
+
+function fixedGain(g: PairGains, fixed: readonly Pair[]): number {
+  let s = 0;
+  for (const f of fixed)
+    for (let j = g.rowStart[f.point]; j < g.rowStart[f.point + 1]; j++) if (g.cells[j] === f.cell) s += g.gains[j];
+  return s;
+}
+
+function fitFixed(model: CellModel, points: Points, fixed: readonly Pair[], limits: Plausibility): Transform | null {
+  try {
+    const fit = fitTransform('similarity', fixed.map((f) => model.meanRows[f.cell]), fixed.map((f) => points[f.point]));
+    const inv = invertTransform(fit.transform);
+    return isPlausible(inv, limits) ? inv : null;
+  } catch (e) {
+    if (e instanceof FitError) return null;
+    throw e;
+  }
+}
+
+/** Rotations by pi about each principal axis of the template, about its centroid (d = 2: one; d = 3: three). */
+function halfTurns(axes: number[][], centroid: number[]): Transform[] {
+  const d = centroid.length;
+  const out: Transform[] = [];
+  for (let c = 0; c < (d === 2 ? 1 : d); c++) {
+    // R = 2 u u^T - I rotates by pi about u (3-D); in 2-D, R = -I.
+    const u = axes.map((row) => row[c]);
+    const linear = Array.from({ length: d }, (_, a) =>
+      Array.from({ length: d }, (_, b) => (d === 2 ? (a === b ? -1 : 0) : 2 * u[a] * u[b] - (a === b ? 1 : 0))),
+    );
+    const translation = centroid.map((v, a) => v - linear[a].reduce((s, x, b) => s + x * centroid[b], 0));
+    out.push({ kind: 'rigid', linear, translation });
+  }
+  return out;
+}
+
+function distinctTop(poses: PoseEstimate[], points: Points, keep: number): PoseEstimate[] {
+  const sorted = poses.slice().sort((a, b) => b.score - a.score);
+  const out: PoseEstimate[] = [];
+  for (const p of sorted) {
+    if (out.some((q) => poseDistance(q.transform, p.transform, points) < 1)) continue;
+    out.push(p);
+    if (out.length >= keep) break;
+  }
+  return out;
+}
+
+function distinctTransforms(ts: Transform[], points: Points, keep: number): Transform[] {
+  const out: Transform[] = [];
+  for (const t of ts) {
+    if (out.some((q) => poseDistance(q, t, points) < 1)) continue;
+    out.push(t);
+    if (out.length >= keep) break;
+  }
+  return out;
+}
+
+/** Median nearest-neighbour distance of the template means. */
+function typicalSpacing(model: CellModel): number {
+  const nn: number[] = [];
+  for (let k = 0; k < model.size; k++) {
+    let best = Infinity;
+    for (let l = 0; l < model.size; l++) {
+      if (l === k) continue;
+      let s = 0;
+      for (let a = 0; a < model.dim; a++) s += (model.meanRows[k][a] - model.meanRows[l][a]) ** 2;
+      best = Math.min(best, s);
+    }
+    if (Number.isFinite(best)) nn.push(Math.sqrt(best));
+  }
+  nn.sort((a, b) => a - b);
+  return nn.length ? nn[nn.length >> 1] : 1;
+}
+
+/**
+ * Softassign EM for a map of family `kind`: anneal the cell widths (inflation
+ * 2 -> 1), at each step balance the one-to-one posterior (softassign.ts), fit
+ * template -> sample on expected cell positions with weights P(i -> k) /
+ * (tr S_k / d), invert, and re-estimate rho and Lambda from the posterior.
+ */
+export function softassignRefine(
+  model: CellModel,
+  grid: CellGrid,
+  points: Points,
+  start: Transform,
+  kind: Transform['kind'],
+  limits: Plausibility,
+  params: MatchModelParameters,
+  fixed: readonly Pair[],
+  schedule: readonly number[] = [2, 1.5, 1.2, 1, 1, 1],
+): { transform: Transform; params: MatchModelParameters } {
+  const d = model.dim, n = points.length, K = model.size;
+  let cur = start;
+  let p = params;
+  const fixedOf = new Map(fixed.map((f) => [f.point, f.cell]));
+  for (const inflation of schedule) {
+    const mapped = mapPoints(cur, points);
+    const g = pairGains(model, grid, mapped, jacobianOf(cur), { ...p, inflation });
+    const mg = sinkhorn(g, n, K, 40);
+    const src: number[][] = [], tgt: number[][] = [], w: number[] = [];
+    let matched = 0;
+    for (let i = 0; i < n; i++) {
+      const fk = fixedOf.get(i);
+      if (fk !== undefined) {
+        src.push(model.meanRows[fk]);
+        tgt.push(points[i] as number[]);
+        w.push(1 / model.isoVar[fk]);
+        matched += 1;
+        continue;
+      }
+      const m = new Array<number>(d).fill(0);
+      let ws = 0, ps = 0;
+      for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) {
+        const k = g.cells[j];
+        const wk = mg.pair[j] / model.isoVar[k];
+        ws += wk;
+        ps += mg.pair[j];
+        for (let a = 0; a < d; a++) m[a] += wk * model.means[k * d + a];
+      }
+      matched += ps;
+      if (ws > 1e-12) {
+        src.push(m.map((v) => v / ws));
+        tgt.push(points[i] as number[]);
+        w.push(ws);
+      }
+    }
+    if (src.length < d + 2) break;
+    let next: Transform;
+    try {
+      next = invertTransform(fitTransform(kind, src, tgt, { weights: w }).transform);
+    } catch (e) {
+      if (e instanceof FitError) break;
+      throw e;
+    }
+    if (!isPlausible(next, limits)) break;
+    cur = next;
+    const detection = Math.min(0.98, Math.max(0.3, matched / K));
+    p = { ...p, detection, outliers: Math.max(0.5, n - matched) };
+  }
+  return { transform: cur, params: p };
+}
+
+/** Final one-to-one assignment with abstention and the posterior confidences. */
+function assignAndScore(
+  model: CellModel,
+  gains: PairGains,
+  mapped: Points,
+  fixedCell: ReadonlyMap<number, number>,
+  givenLabels: readonly (string | null)[],
+  radius: number,
+  abstainBelow: number,
+): Proposal[] {
+  const n = mapped.length, K = model.size;
+  const fixedCells = new Set(fixedCell.values());
+  // Free rows and columns.
+  const rows: number[] = [];
+  for (let i = 0; i < n; i++) if (!fixedCell.has(i) && givenLabels[i] === null) rows.push(i);
+  const cols: number[] = [];
+  const colIndex = new Int32Array(K).fill(-1);
+  for (let k = 0; k < K; k++)
+    if (!fixedCells.has(k)) {
+      colIndex[k] = cols.length;
+      cols.push(k);
+    }
+  // Posterior marginals on the free part only.
+  const freeGains = restrictGains(gains, rows, colIndex);
+  const marg = sinkhorn(freeGains, rows.length, cols.length, 200, 1e-9);
+  const cost: number[][] = rows.map(() => new Array<number>(cols.length).fill(Infinity));
+  rows.forEach((i, r) => {
+    for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++) {
+      const g = freeGains.gains[j];
+      if (g > 0) cost[r][freeGains.cells[j]] = -g;
+    }
+  });
+  const assignment = rows.length > 0 && cols.length > 0 ? assignWithAbstention(cost, rows.map(() => 0)) : null;
+  const proposals: Proposal[] = new Array(n);
+  for (let i = 0; i < n; i++) {
+    if (fixedCell.has(i) || givenLabels[i] !== null) {
+      const k = fixedCell.get(i);
+      const label = givenLabels[i] as string;
+      proposals[i] = {
+        label,
+        confidence: 1,
+        distance: k === undefined ? null : Math.sqrt(mahalanobis2(model, k, mapped[i])),
+        alternatives: [{ label, probability: 1 }],
+      };
+    }
+  }
+  rows.forEach((i, r) => {
+    const alts: { label: string; probability: number }[] = [];
+    for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++)
+      alts.push({ label: model.labels[cols[freeGains.cells[j]]], probability: marg.pair[j] });
+    alts.sort((a, b) => b.probability - a.probability || (a.label < b.label ? -1 : 1));
+    const top = alts.slice(0, 3);
+    const c = assignment ? assignment.rowToColumn[r] : -1;
+    let label: string | null = null, confidence = marg.outlier[r], distance: number | null = null;
+    if (c >= 0) {
+      const k = cols[c];
+      let prob = 0;
+      for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++) if (freeGains.cells[j] === c) prob = marg.pair[j];
+      if (prob >= abstainBelow) {
+        label = model.labels[k];
+        confidence = prob;
+        distance = Math.sqrt(mahalanobis2(model, k, mapped[i]));
+      }
+    }
+    proposals[i] = { label, confidence, distance, alternatives: top };
+  });
+  void radius;
+  return proposals;
+}
+
+/** The pair table restricted to the given rows, with cells renumbered by colIndex (dropped when -1). */
+function restrictGains(g: PairGains, rows: readonly number[], colIndex: Int32Array): PairGains {
+  const rowStart = new Int32Array(rows.length + 1);
+  const cells: number[] = [], gains: number[] = [], dists: number[] = [];
+  rows.forEach((i, r) => {
+    for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) {
+      const c = colIndex[g.cells[j]];
+      if (c < 0) continue;
+      cells.push(c);
+      gains.push(g.gains[j]);
+      dists.push(g.distances[j]);
+    }
+    rowStart[r + 1] = cells.length;
+  });
+  return { rowStart, cells: Int32Array.from(cells), gains: Float64Array.from(gains), distances: Float64Array.from(dists) };
+}
+
+function mahalanobis2(model: CellModel, k: number, y: readonly number[]): number {
+  const d = model.dim, po = k * d * d, mo = k * d;
+  let s = 0;
+  for (let a = 0; a < d; a++) {
+    let r = 0;
+    for (let b = 0; b < d; b++) r += model.precisions[po + a * d + b] * (y[b] - model.means[mo + b]);
+    s += (y[a] - model.means[mo + a]) * r;
+  }
+  return s;
+}
+
+/**
+ * Labels for points already mapped into the template frame (for example by a
+ * known deformation: the accuracy suite's oracle). rho and Lambda are
+ * estimated from the posterior as in the matcher; given labels stay fixed.
+ * @param jacobian |det| of the sample -> template map at the points
+ */
+export function labelMappedPoints(
+  template: Template,
+  sample: Sample,
+  mapped: Points,
+  jacobian: number,
+  options: { hitRadius?: number; abstainBelow?: number } = {},
+): Proposal[] {
+  const prepared = prepareTemplate(template);
+  const { model } = prepared;
+  const n = mapped.length;
+  const fixedCell = new Map<number, number>();
+  const used = new Set<number>();
+  sample.labels.forEach((label, i) => {
+    if (label === null) return;
+    const k = model.labelIndex.get(label);
+    if (k === undefined || used.has(k)) return;
+    used.add(k);
+    fixedCell.set(i, k);
+  });
+  let params: MatchModelParameters = {
+    detection: 0.85,
+    outliers: Math.max(1, n - 0.85 * model.size),
+    outlierDensity: 1 / boundingVolume(sample.coords),
+  };
+  for (let it = 0; it < 3; it++) {
+    const g = pairGains(model, prepared.pairGrid, mapped, jacobian, params);
+    const mg = sinkhorn(g, n, model.size, 40);
+    let matched = 0;
+    for (let j = 0; j < mg.pair.length; j++) matched += mg.pair[j];
+    params = { ...params, detection: Math.min(0.98, Math.max(0.3, matched / model.size)), outliers: Math.max(0.5, n - matched) };
+  }
+  const gains = pairGains(model, prepared.pairGrid, mapped, jacobian, params);
+  return assignAndScore(model, gains, mapped, fixedCell, sample.labels, options.hitRadius ?? DEFAULT_HIT_RADIUS, options.abstainBelow ?? 0);
+}
