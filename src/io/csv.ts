@@ -6,8 +6,8 @@
  * The reader is our own small state machine rather than a library parser so
  * that every record knows the 1-based line it starts on (a quoted field may
  * span lines) and every syntax error names the line where it happens. It
- * accepts LF, CRLF and lone CR line breaks, a leading byte order mark, and
- * skips blank lines.
+ * accepts LF, CRLF and lone CR line breaks, a leading byte order mark, spaces
+ * or tabs around a quoted field (outside the quotes), and skips blank lines.
  */
 import { InputError, UsageError } from '../errors.js';
 
@@ -46,6 +46,10 @@ export function parseCsvRecords(text: string, file: string): CsvRecord[] {
     // Parse one record.
     for (;;) {
       let value = '';
+      // Spaces or tabs before an opening quote are tolerated (`1, "VLa1, left"`).
+      let j = i;
+      while (text[j] === ' ' || text[j] === '\t') j++;
+      if (text[j] === '"') i = j;
       if (text[i] === '"') {
         const quoteLine = line;
         i++;
@@ -71,6 +75,7 @@ export function parseCsvRecords(text: string, file: string): CsvRecord[] {
           value += c;
           i++;
         }
+        while (text[i] === ' ' || text[i] === '\t') i++;
         if (i < n && text[i] !== ',' && text[i] !== '\n' && text[i] !== '\r') {
           throw new InputError(
             { file, row: line },

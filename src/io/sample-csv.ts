@@ -106,7 +106,7 @@ export function parseSamplesCsvCollect(
     }
     const feats: number[] = [];
     for (const f of columns.features) {
-      const v = readNumber(fields[f.index], file, line, f.name, errors);
+      const v = readNumber(fields[f.index], file, line, f.name, errors, FEATURE_HINT);
       if (v === undefined) ok = false;
       else feats.push(v);
     }
@@ -186,12 +186,14 @@ function readHeader(header: CsvRecord, file: string, errors: InputError[]): Head
   return { x: found.get('x')!, y: found.get('y')!, z: found.get('z'), label: found.get('label'), sample: found.get('sample'), features };
 }
 
-function readNumber(text: string, file: string, row: number, column: string, errors: InputError[]): number | undefined {
+const FEATURE_HINT = ' (columns other than x, y, z, label and sample are numeric features)';
+
+function readNumber(text: string, file: string, row: number, column: string, errors: InputError[], hint = ''): number | undefined {
   if (text.trim() === '') {
-    errors.push(new InputError({ file, row, column }, 'is empty; a finite number is required'));
+    errors.push(new InputError({ file, row, column }, `is empty; a finite number is required${hint}`));
     return undefined;
   }
   const v = parseDecimal(text);
-  if (v === undefined) errors.push(new InputError({ file, row, column }, notFiniteReason(JSON.stringify(text.trim()))));
+  if (v === undefined) errors.push(new InputError({ file, row, column }, notFiniteReason(JSON.stringify(text.trim())) + hint));
   return v;
 }

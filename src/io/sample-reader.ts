@@ -11,6 +11,7 @@ import { parseDecimal } from './number-text.js';
 import { parseSamplesCsvCollect } from './sample-csv.js';
 import { parseSamplesJsonCollect } from './sample-json.js';
 import { decodeUtf8, readFileBytes } from './text-file.js';
+import { canonicalPath } from './paths.js';
 
 export type { SampleReadOptions } from './sample-assembler.js';
 export { parseSamplesCsv, parseSamplesCsvCollect, sampleIdFromPath } from './sample-csv.js';
@@ -52,8 +53,18 @@ export function readSamplesCollect(paths: readonly string[], options: SampleRead
   const files: SampleFileResult[] = [];
   const errors: InputError[] = [];
   const good: Sample[] = [];
+  const seen = new Map<string, string>();
   for (const file of paths) {
     const fileErrors: InputError[] = [];
+    const key = canonicalPath(file);
+    const earlier = seen.get(key);
+    if (earlier !== undefined) {
+      const err = new InputError({ file }, `is given more than once${earlier === file ? '' : ` (also as ${earlier})`}`);
+      files.push({ file, samples: [], errors: [err] });
+      errors.push(err);
+      continue;
+    }
+    seen.set(key, file);
     const samples = readSampleFile(file, options, fileErrors);
     files.push({ file, samples, errors: fileErrors });
     errors.push(...fileErrors);

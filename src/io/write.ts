@@ -9,36 +9,17 @@ import { randomBytes } from 'node:crypto';
 import * as fs from 'node:fs';
 import * as path from 'node:path';
 import { InputError } from '../errors.js';
+import { canonicalPath } from './paths.js';
 import { fileSystemError } from './text-file.js';
 
 export { formatCsv, formatCsvField, formatNumber } from './csv.js';
+export { canonicalPath } from './paths.js';
 
 export interface WriteOptions {
   /** Replace an existing file. */
   readonly force?: boolean;
   /** The command's input files: the output may not be any of them. */
   readonly inputs?: readonly string[];
-}
-
-/**
- * The canonical absolute path of `p`: fs.realpathSync when it exists,
- * otherwise the real path of its nearest existing parent joined with the rest.
- */
-export function canonicalPath(p: string): string {
-  const abs = path.resolve(p);
-  const rest: string[] = [];
-  let cur = abs;
-  for (;;) {
-    try {
-      const real = fs.realpathSync(cur);
-      return rest.length ? path.join(real, ...rest.reverse()) : real;
-    } catch {
-      const parent = path.dirname(cur);
-      if (parent === cur) return abs;
-      rest.push(path.basename(cur));
-      cur = parent;
-    }
-  }
 }
 
 /** Throws InputError when `target` is (resolves to the same file as) one of `inputs`. */

@@ -39,6 +39,10 @@ describe('parseCsvRecords', () => {
     expect(parseCsvRecords('a\r\n"b\r\nc"\r\nd\r\n', 'f.csv').map((r) => r.line)).toEqual([1, 2, 4]);
   });
 
+  it('tolerates spaces and tabs outside the quotes of a quoted field, and keeps them in unquoted fields', () => {
+    expect(parseCsvRecords('x, y,label\n1, 2 , "a, b" \t\n', 'f.csv')[1].fields).toEqual(['1', ' 2 ', 'a, b']);
+  });
+
   it('keeps empty fields, including a trailing one', () => {
     expect(parseCsvRecords('a,,c,\n', 'f.csv')[0].fields).toEqual(['a', '', 'c', '']);
   });

@@ -92,7 +92,7 @@ describe('parseSamplesCsv: errors name file, row and column', () => {
     ['Inf', 'x,y\n1,-Inf\n', 'a.csv:2: column "y": "-Inf" is not a finite number'],
     ['1e400', 'x,y\n1e400,2\n', 'a.csv:2: column "x": "1e400" is not a finite number'],
     ['an empty coordinate', 'x,y,z\n1,2,\n', 'a.csv:2: column "z": is empty; a finite number is required'],
-    ['a feature that is not a number', 'x,y,gfp\n1,2,high\n', 'a.csv:2: column "gfp": "high" is not a finite number'],
+    ['a feature that is not a number', 'x,y,gfp\n1,2,high\n', 'a.csv:2: column "gfp": "high" is not a finite number (columns other than x, y, z, label and sample are numeric features)'],
     ['an empty file', '', 'a.csv: the file is empty; a header row with at least "x" and "y" is required'],
     ['a header only', 'x,y,label\n', 'a.csv:1: the header is not followed by any data rows (empty sample)'],
     ['no x column', 'y,z,label\n1,2,a\n', 'a.csv:1: the header has no "x" column (found "y", "z", "label")'],

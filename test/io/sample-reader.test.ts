@@ -71,6 +71,12 @@ describe('readSamples', () => {
     );
   });
 
+  it('rejects the same file given twice, under any spelling', () => {
+    expect(messageOf(() => readSamples([at('a.csv'), at('a.csv')]))).toBe(`${at('a.csv')}: is given more than once`);
+    const other = `${dir}/other/../a.csv`;
+    expect(messageOf(() => readSamples([at('a.csv'), other]))).toBe(`${other}: is given more than once (also as ${at('a.csv')})`);
+  });
+
   it('needs at least one path (UsageError)', () => {
     expect(() => readSamples([])).toThrow(UsageError);
   });
