@@ -1,13 +1,15 @@
 /**
  * Perceptually uniform, colour-blind-safe colour scales for the figures.
  *
- * - viridis: van der Walt & Smith (2015), "mpl colormaps", designed for
- *   matplotlib 2.0; uniform in CAM02-UCS lightness and readable with the common
+ * - viridis: van der Walt & Smith (2015), designed as matplotlib's default
+ *   colour map; uniform in CAM02-UCS lightness and readable with the common
  *   forms of colour-vision deficiency.
  * - cividis: Nuñez, Anderton & Renslow (2018), "Optimizing colormaps with
  *   consideration for color vision deficiency to enable accurate interpretation
  *   of scientific data", PLoS ONE 13(7): e0199239; a blue-to-yellow scale that
  *   looks nearly the same to viewers with and without red-green deficiency.
+ *   (Both citations are given from memory; the colours themselves come from
+ *   viridisLite, below.)
  *
  * Each scale is stored as 33 equally spaced control points (t = 0, 1/32, ..., 1)
  * taken from R viridisLite 0.4.1 (`viridis(33)`, `cividis(33)`), and is

@@ -8,7 +8,7 @@
  * The ellipse (x - mu)^T Sigma_uv^-1 (x - mu) = r^2 contains probability p of
  * the projected distribution when r^2 is the p-quantile of chi-square with 2
  * degrees of freedom (Johnson & Wichern, Applied Multivariate Statistical
- * Analysis, 6th ed., 2007, Result 4.7). With 2 degrees of freedom the
+ * Analysis, 6th ed., 2007, Result 4.7; citation from memory). With 2 degrees of freedom the
  * chi-square CDF is 1 - exp(-x / 2), so the quantile is r^2 = -2 ln(1 - p).
  */
 import { UsageError } from '../errors.js';

@@ -34,6 +34,7 @@ export interface MatchedFigureOptions {
   readonly probability?: number;
   readonly plotWidth?: number;
   readonly maxPanelHeight?: number;
+  readonly maxWidth?: number;
   readonly idPrefix?: string;
 }
 
@@ -74,8 +75,9 @@ export function matchedSampleFigureSvg(
   const legendHeight = 74;
   const layout = layoutProjections(d, box, {
     top: legendHeight,
-    plotWidth: options.plotWidth ?? 700,
+    plotWidth: options.plotWidth ?? 660,
     maxPanelHeight: options.maxPanelHeight ?? 300,
+    maxWidth: options.maxWidth ?? 1100,
   });
   const width = Math.max(layout.width, 560);
   const pct = percent(p);

@@ -1,8 +1,10 @@
 /**
  * Orthogonal projections of a template's frame onto its coordinate planes
- * (x-y, x-z, y-z for 3-D; x-y for 2-D), stacked in one column. All panels share
- * one scale (px per µm) so that spreads can be compared across panels, and
- * the vertical axis points up.
+ * (x-y, x-z, y-z for 3-D; x-y for 2-D), placed left to right in rows (a panel
+ * that fits beside the previous one goes there: for an elongated template the
+ * y-z panel sits beside the x-z panel, sharing its vertical z axis). All panels
+ * share one scale (px per µm) so that spreads can be compared across panels,
+ * and the vertical axis points up.
  */
 import { escapeXml, fixed, niceTicks, px, stepDigits } from './common.js';
 
@@ -38,6 +40,8 @@ export interface ProjectionLayoutOptions {
   readonly plotWidth: number;
   /** Largest plot-area height, px. */
   readonly maxPanelHeight: number;
+  /** Widest the figure may grow when panels sit side by side, px; default one panel's width. */
+  readonly maxWidth?: number;
 }
 
 const MARGIN_LEFT = 52;
@@ -54,7 +58,8 @@ export function projectionPlanes(dim: number): [number, number][] {
 /**
  * Lay out the panels for data within the box [min, max] (per coordinate, µm).
  * Each range is padded by 4% on both sides (at least 0.5 µm). The scale is
- * the largest that fits every panel into plotWidth x maxPanelHeight.
+ * the largest that fits every panel into plotWidth x maxPanelHeight; panels
+ * then flow into rows no wider than maxWidth.
  */
 export function layoutProjections(
   dim: number,
@@ -74,16 +79,26 @@ export function layoutProjections(
   for (const [u, v] of planes) {
     scale = Math.min(scale, options.plotWidth / (hi[u] - lo[u]), options.maxPanelHeight / (hi[v] - lo[v]));
   }
+  // Flow the panels left to right, starting a new row when the next one would pass maxWidth.
+  const maxWidth = options.maxWidth ?? MARGIN_LEFT + options.plotWidth + MARGIN_RIGHT;
   const panels: ProjectionPanel[] = [];
-  let y = options.top;
+  let rowTop = options.top;
+  let rowHeight = 0;
+  let x = 0;
   let width = 0;
   for (const [u, v] of planes) {
     const w = (hi[u] - lo[u]) * scale;
     const h = (hi[v] - lo[v]) * scale;
+    const footprint = MARGIN_LEFT + w + MARGIN_RIGHT;
+    if (x > 0 && x + footprint > maxWidth) {
+      rowTop += rowHeight;
+      rowHeight = 0;
+      x = 0;
+    }
     panels.push({
       axes: [u, v],
-      left: MARGIN_LEFT,
-      top: y + TITLE_HEIGHT,
+      left: x + MARGIN_LEFT,
+      top: rowTop + TITLE_HEIGHT,
       width: w,
       height: h,
       uMin: lo[u],
@@ -92,10 +107,11 @@ export function layoutProjections(
       vMax: hi[v],
       scale,
     });
-    y += TITLE_HEIGHT + h + AXIS_HEIGHT + GAP;
-    width = Math.max(width, MARGIN_LEFT + w + MARGIN_RIGHT);
+    x += footprint;
+    width = Math.max(width, x);
+    rowHeight = Math.max(rowHeight, TITLE_HEIGHT + h + AXIS_HEIGHT + GAP);
   }
-  return { panels, width, height: y };
+  return { panels, width, height: rowTop + rowHeight };
 }
 
 /** SVG coordinates of the data point (u, v) in a panel (v points up). */

@@ -14,10 +14,12 @@ import { ellipseElement, layoutProjections, panelClipId, panelFrame, projectionP
 export interface TemplateFigureOptions {
   /** Probability contained by each ellipse, in (0, 1); default 0.95. */
   readonly probability?: number;
-  /** Largest plot width, px; default 700. */
+  /** Largest plot width, px; default 660. */
   readonly plotWidth?: number;
   /** Largest panel height, px; default 300. */
   readonly maxPanelHeight?: number;
+  /** Widest the figure may grow with panels side by side, px; default 1100. */
+  readonly maxWidth?: number;
   /** Prefix for element ids, unique per page; default "tpl". */
   readonly idPrefix?: string;
 }
@@ -64,8 +66,9 @@ export function templateFigureSvg(template: Template, options: TemplateFigureOpt
   const legendHeight = 74;
   const layout = layoutProjections(template.dim, ellipseBoundingBox(template, p), {
     top: legendHeight,
-    plotWidth: options.plotWidth ?? 700,
+    plotWidth: options.plotWidth ?? 660,
     maxPanelHeight: options.maxPanelHeight ?? 300,
+    maxWidth: options.maxWidth ?? 1100,
   });
   const width = Math.max(layout.width, 560);
   const height = layout.height;
