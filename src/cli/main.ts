@@ -6,8 +6,11 @@
 import { Command, CommanderError } from 'commander';
 import { isCairnError, UsageError } from '../errors.js';
 import { VERSION } from '../version.js';
+import { registerAdd } from './add.js';
+import { registerBuild } from './build.js';
 import { registerCheck } from './check.js';
 import { registerInspect } from './inspect.js';
+import { registerCompare } from './compare.js';
 
 export interface CliIo {
   stdout: (text: string) => void;
@@ -22,7 +25,7 @@ const processIo: CliIo = {
 /** Each command module exports a function that adds itself to the program. */
 export type CommandRegistrar = (program: Command, io: CliIo) => void;
 
-const registrars: CommandRegistrar[] = [registerCheck, registerInspect];
+const registrars: CommandRegistrar[] = [registerCheck, registerInspect, registerBuild, registerAdd, registerCompare];
 
 export function createProgram(io: CliIo = processIo): Command {
   const program = new Command();
