@@ -2,6 +2,8 @@ import { describe, it, expect, beforeEach, afterEach, vi } from 'vitest';
 import * as fs from 'node:fs';
 import * as os from 'node:os';
 import * as path from 'node:path';
+import { spawn } from 'node:child_process';
+import { fileURLToPath } from 'node:url';
 import { InputError } from '../../src/errors.js';
 import { canonicalPath, ensureOutputDir, writeFileAtomic } from '../../src/io/write.js';
 
@@ -100,6 +102,36 @@ describe('writeFileAtomic', () => {
     expect(path.basename(failRename.from)).toMatch(new RegExp(`^\\.cairn-tmp-${process.pid}-[0-9a-f]{12}-target$`));
     expect(fs.readFileSync(at('target'), 'utf8')).toBe('old');
     expect(listing()).toEqual(['target']);
+  });
+});
+
+describe('writeFileAtomic under interruption', () => {
+  it('leaves every output complete or absent when a writing process is killed by SIGINT', async () => {
+    const repo = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..', '..');
+    const script = path.join(dir, 'writer.mts');
+    // Each output is about 1 MiB of a known pattern with an end marker; the child writes them until killed.
+    fs.writeFileSync(
+      script,
+      `import { writeFileAtomic } from ${JSON.stringify(path.join(repo, 'src/io/write.ts'))};\n` +
+        `const body = 'x,y,z,label\\n' + '1.5,2.5,3.5,VLa1\\n'.repeat(60000) + 'END\\n';\n` +
+        `for (let i = 0; ; i++) { writeFileAtomic(${JSON.stringify(dir)} + '/out-' + i + '.csv', body); if (i === 3) process.stdout.write('ready\\n'); }\n`,
+    );
+    const child = spawn(process.execPath, ['--import', 'tsx', script], { cwd: repo, stdio: ['ignore', 'pipe', 'pipe'] });
+    await new Promise<void>((resolve, reject) => {
+      child.stdout.on('data', (d: Buffer) => {
+        if (d.toString().includes('ready')) resolve();
+      });
+      child.on('exit', (code) => reject(new Error(`writer exited early with ${code}`)));
+    });
+    const exited = new Promise<NodeJS.Signals | null>((resolve) => child.on('exit', (_code, signal) => resolve(signal)));
+    child.kill('SIGINT');
+    expect(await exited).toBe('SIGINT');
+    const expected = 'x,y,z,label\n' + '1.5,2.5,3.5,VLa1\n'.repeat(60000) + 'END\n';
+    const outputs = fs.readdirSync(dir).filter((f) => /^out-\d+\.csv$/.test(f));
+    expect(outputs.length).toBeGreaterThanOrEqual(4);
+    for (const f of outputs) expect(fs.readFileSync(path.join(dir, f), 'utf8') === expected, f).toBe(true);
+    // Whatever was in flight is at most one temporary file, never a partial output.
+    expect(fs.readdirSync(dir).filter((f) => f.startsWith('.cairn-tmp-')).length).toBeLessThanOrEqual(1);
   });
 });
 
