@@ -48,6 +48,34 @@ export interface MeasuredAccuracy {
   readonly scheme: string;
   /** Fraction of labelled held-out points given no label, when measured. */
   readonly abstained?: number;
+  /** Wrong proposals / proposals made, when measured. */
+  readonly falseLabelRate?: number;
+}
+
+/**
+ * MeasuredAccuracy from the accuracy report of `cairn evaluate`
+ * (src/evaluate/metrics.ts AccuracyReport, typed structurally here):
+ * accuracy and points as reported, samples = number of per-sample rows,
+ * abstained = 1 - coverage, falseLabelRate as reported.
+ */
+export function measuredAccuracyFromReport(
+  report: {
+    readonly accuracy: number;
+    readonly points: number;
+    readonly coverage: number;
+    readonly falseLabelRate: number;
+    readonly perSample: readonly unknown[];
+  },
+  scheme: string,
+): MeasuredAccuracy {
+  return {
+    accuracy: report.accuracy,
+    points: report.points,
+    samples: report.perSample.length,
+    scheme,
+    abstained: 1 - report.coverage,
+    falseLabelRate: report.falseLabelRate,
+  };
 }
 
 const EVALUATE_HINT =
@@ -70,15 +98,17 @@ export function proposalCautions(measured?: MeasuredAccuracy): string[] {
   if (!(Number.isInteger(points) && points > 0 && Number.isInteger(samples) && samples > 0)) {
     throw new UsageError(`proposalCautions: points and samples must be positive integers, got ${points} and ${samples}`);
   }
-  const wrong = 1 - accuracy;
-  const oneIn = wrong > 0 ? ` (about 1 in ${Math.max(1, Math.round(1 / wrong))} proposals wrong)` : '';
+  const missed = 1 - accuracy;
+  const oneIn = missed > 0 ? ` (about 1 in ${Math.max(1, Math.round(1 / missed))} did not)` : '';
   const abstained =
-    measured.abstained !== undefined ? `; ${fixed(100 * measured.abstained, 1)}% of labelled points got no proposal` : '';
+    measured.abstained !== undefined ? `; ${fixed(100 * measured.abstained, 1)}% got no proposal` : '';
+  const wrong =
+    measured.falseLabelRate !== undefined ? `; ${fixed(100 * measured.falseLabelRate, 1)}% of the proposals made were wrong` : '';
   return [
     first,
     `On this lab's own labelled data, \`cairn evaluate\` (${measured.scheme}, ${samples} samples, ${points} labelled points) ` +
-      `measured ${fixed(100 * accuracy, 1)}% of proposals correct${oneIn}${abstained}. New animals that differ from those ` +
-      'samples (stage, strain, imaging) may fare worse.',
+      `gave the right label to ${fixed(100 * accuracy, 1)}% of labelled points${oneIn}${abstained}${wrong}. New animals ` +
+      'that differ from those samples (stage, strain, imaging) may fare worse.',
   ];
 }
 

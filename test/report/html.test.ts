@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { UsageError } from '../../src/errors.js';
 import {
+  measuredAccuracyFromReport,
   paragraph,
   proposalCautions,
   renderFigure,
@@ -73,11 +74,33 @@ describe('proposalCautions', () => {
   });
 
   it('quotes the measured accuracy with its scheme and sample size', () => {
-    const c = proposalCautions({ accuracy: 0.873, points: 3412, samples: 24, scheme: 'leave-one-out', abstained: 0.04 });
+    const c = proposalCautions({
+      accuracy: 0.873,
+      points: 3412,
+      samples: 24,
+      scheme: 'leave-one-out',
+      abstained: 0.04,
+      falseLabelRate: 0.0927,
+    });
     expect(c[1]).toBe(
-      "On this lab's own labelled data, `cairn evaluate` (leave-one-out, 24 samples, 3412 labelled points) measured 87.3% " +
-        'of proposals correct (about 1 in 8 proposals wrong); 4.0% of labelled points got no proposal. New animals that ' +
-        'differ from those samples (stage, strain, imaging) may fare worse.',
+      "On this lab's own labelled data, `cairn evaluate` (leave-one-out, 24 samples, 3412 labelled points) gave the right " +
+        'label to 87.3% of labelled points (about 1 in 8 did not); 4.0% got no proposal; 9.3% of the proposals made were ' +
+        'wrong. New animals that differ from those samples (stage, strain, imaging) may fare worse.',
+    );
+    expect(proposalCautions({ accuracy: 1, points: 5, samples: 1, scheme: 'leave-one-out' })[1]).toContain(
+      'gave the right label to 100.0% of labelled points. New animals',
+    );
+  });
+
+  it('reads the figures from an evaluate accuracy report', () => {
+    const m = measuredAccuracyFromReport(
+      { accuracy: 0.9, points: 200, coverage: 0.95, falseLabelRate: 0.05 / 0.95, perSample: [{}, {}, {}] },
+      '3-fold',
+    );
+    expect(m).toEqual({ accuracy: 0.9, points: 200, samples: 3, scheme: '3-fold', abstained: 1 - 0.95, falseLabelRate: 0.05 / 0.95 });
+    expect(proposalCautions(m)[1]).toContain(
+      '(3-fold, 3 samples, 200 labelled points) gave the right label to 90.0% of labelled points (about 1 in 10 did not); ' +
+        '5.0% got no proposal; 5.3% of the proposals made were wrong.',
     );
   });
 

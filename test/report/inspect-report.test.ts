@@ -29,7 +29,7 @@ describe('buildInspectReport', () => {
 
   it('quotes the measured accuracy when it is given', () => {
     const page = buildInspectReport(template, { accuracy: { accuracy: 0.91, points: 800, samples: 12, scheme: 'leave-one-out' } });
-    expect(page.cautions.join(' ')).toContain('measured 91.0% of proposals correct');
+    expect(page.cautions.join(' ')).toContain('gave the right label to 91.0% of labelled points');
     expect(page.cautions.join(' ')).not.toContain('has not been measured');
   });
 
