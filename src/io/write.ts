@@ -36,14 +36,13 @@ export function refuseInputAsOutput(target: string, inputs: readonly string[] = 
 }
 
 /**
- * Write `content` to `target` atomically: write `.cairn-tmp-<pid>-<hex>-<name>`
- * in the same folder, flush it to disk, rename it over `target`. The
- * temporary file is removed on any failure. Throws InputError when `target`
- * is one of `options.inputs`, exists without `options.force`
- * (`out.csv: exists; use --force to overwrite`), is a folder, or its folder
- * does not exist; and for file-system failures.
+ * The checks `writeFileAtomic` makes before writing, without writing: call it
+ * before a long computation so that a refused output fails early. Throws
+ * InputError when `target` is one of `options.inputs`, exists without
+ * `options.force`, is a folder, or its folder does not exist. Returns the
+ * absolute folder of `target`.
  */
-export function writeFileAtomic(target: string, content: string | Uint8Array, options: WriteOptions = {}): void {
+export function assertWritable(target: string, options: WriteOptions = {}): string {
   refuseInputAsOutput(target, options.inputs);
   const dir = path.dirname(path.resolve(target));
   let dirStat: fs.Stats | undefined;
@@ -63,7 +62,19 @@ export function writeFileAtomic(target: string, content: string | Uint8Array, op
   }
   if (existing?.isDirectory()) throw new InputError({ file: target }, 'is a folder; give a file name to write');
   if (existing && !options.force) throw new InputError({ file: target }, 'exists; use --force to overwrite');
+  return dir;
+}
 
+/**
+ * Write `content` to `target` atomically: write `.cairn-tmp-<pid>-<hex>-<name>`
+ * in the same folder, flush it to disk, rename it over `target`. The
+ * temporary file is removed on any failure. Throws InputError when `target`
+ * is one of `options.inputs`, exists without `options.force`
+ * (`out.csv: exists; use --force to overwrite`), is a folder, or its folder
+ * does not exist; and for file-system failures.
+ */
+export function writeFileAtomic(target: string, content: string | Uint8Array, options: WriteOptions = {}): void {
+  const dir = assertWritable(target, options);
   const tmp = path.join(dir, `.cairn-tmp-${process.pid}-${randomBytes(6).toString('hex')}-${path.basename(target)}`);
   let fd: number | undefined;
   try {

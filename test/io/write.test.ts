@@ -5,7 +5,7 @@ import * as path from 'node:path';
 import { spawn } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
 import { InputError } from '../../src/errors.js';
-import { canonicalPath, ensureOutputDir, writeFileAtomic } from '../../src/io/write.js';
+import { assertWritable, canonicalPath, ensureOutputDir, writeFileAtomic } from '../../src/io/write.js';
 
 /** Lets a test make fs.renameSync fail, to check the clean-up path. */
 const failRename = vi.hoisted(() => ({ on: false, from: '' }));
@@ -102,6 +102,19 @@ describe('writeFileAtomic', () => {
     expect(path.basename(failRename.from)).toMatch(new RegExp(`^\\.cairn-tmp-${process.pid}-[0-9a-f]{12}-target$`));
     expect(fs.readFileSync(at('target'), 'utf8')).toBe('old');
     expect(listing()).toEqual(['target']);
+  });
+});
+
+describe('assertWritable', () => {
+  it('makes the same refusals as writeFileAtomic without writing anything', () => {
+    fs.writeFileSync(at('in.csv'), 'x');
+    expect(assertWritable(at('new.csv'))).toBe(dir);
+    expect(messageOf(() => assertWritable(at('in.csv')))).toBe(`${at('in.csv')}: exists; use --force to overwrite`);
+    expect(assertWritable(at('in.csv'), { force: true })).toBe(dir);
+    expect(messageOf(() => assertWritable(at('in.csv'), { force: true, inputs: [at('in.csv')] }))).toBe(
+      `${at('in.csv')}: is also an input (${at('in.csv')}); refusing to overwrite an input, choose another output path`,
+    );
+    expect(listing()).toEqual(['in.csv']);
   });
 });
 
