@@ -3,7 +3,7 @@ import fc from 'fast-check';
 import { readFileSync } from 'node:fs';
 import { FitError } from '../../src/errors.js';
 import { multiply, transpose } from '../../src/geometry/linear-algebra.js';
-import { createRng, randomRotation } from '../../src/random.js';
+import { createRng, randomRotation, shuffle } from '../../src/random.js';
 import {
   cellTable,
   describeCells,
@@ -146,6 +146,26 @@ describe('describeCells', () => {
         });
       }),
       { seed: 42, numRuns: 15 },
+    );
+  });
+});
+
+describe('describeCells under re-ordering', () => {
+  it('gives each cell the same summary whatever the order of the cells', () => {
+    const base = testTemplate({ cells: 14, seed: 9 });
+    const ref = new Map(describeCells(base).map((s) => [s.label, s]));
+    fc.assert(
+      fc.property(fc.integer({ min: 1, max: 1_000_000 }), (seed) => {
+        const shuffled = shuffle(base.cells, createRng(seed));
+        for (const s of describeCells({ ...base, cells: shuffled })) {
+          const r = ref.get(s.label)!;
+          expect(s.nearest?.label).toBe(r.nearest?.label);
+          expect(s.leastSeparated?.label).toBe(r.leastSeparated?.label);
+          expect(s.leastSeparated?.separation).toBeCloseTo(r.leastSeparated!.separation, 12);
+          s.principalSds.forEach((v, k) => expect(v).toBeCloseTo(r.principalSds[k], 12));
+        }
+      }),
+      { seed: 7, numRuns: 10 },
     );
   });
 });

@@ -114,7 +114,17 @@ describe('templateFigureSvg', () => {
     expect(s).toContain('<title>A&lt;&amp;&quot;B: n = 8');
   });
 
-  it('gives the same string for the same input', () => {
+  it('gives the same string for the same input, and leaves the input unchanged', () => {
+    const frozen = JSON.parse(JSON.stringify(template));
+    const freeze = (o: unknown): unknown => {
+      if (o && typeof o === 'object') {
+        Object.values(o).forEach(freeze);
+        Object.freeze(o);
+      }
+      return o;
+    };
+    freeze(frozen);
+    expect(templateFigureSvg(frozen)).toBe(svg);
     expect(templateFigureSvg(template)).toBe(svg);
   });
 
