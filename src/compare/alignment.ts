@@ -64,13 +64,18 @@ export interface RobustAlignmentResult {
  *   s       = max(1, median(m_i) / sqrt(chi2_d^-1(1/2))), a robust scale (MAD-type) that
  *             never treats residuals as smaller than the templates' own uncertainty;
  *   u_i     = m_i / s;
- *   omega_i = Huber weight min(1, k / u_i), k = sqrt(chi2_d^-1(0.9)), until convergence
- *             (a convex start), then Tukey's biweight (1 - (u_i / c)^2)^2 for u_i < c,
- *             0 otherwise, with c^2 = chi2_d^-1(1 - cutoffProbability), until convergence
- *             (a redescending M-estimator: cells far outside their uncertainty get weight 0
- *             and do not drag the fit). Huber (1964); Beaton & Tukey (1974);
- *             Holland & Welsch (1977) for IRLS; Maronna, Martin & Yohai (2006), Robust
- *             Statistics, sections 2.2 and 4.4.
+ *   omega_i = first a trimmed start: 1 for the h = max(d + 1, ceil(0.75 k)) cells with the
+ *             smallest m_i, 0 for the rest, refitted until that subset stops changing
+ *             (the concentration steps of least trimmed squares, Rousseeuw & Van Driessen
+ *             2006, FAST-LTS, Data Min. Knowl. Discov. 12:29-45; each step cannot increase
+ *             the trimmed sum of squared standardized residuals); then Tukey's biweight
+ *             (1 - (u_i / c)^2)^2 for u_i < c, 0 otherwise, c^2 = chi2_d^-1(1 - cutoffProbability),
+ *             until convergence (a redescending M-estimator started from the trimmed fit,
+ *             as in MM-estimation: cells far outside their uncertainty get weight 0 and do
+ *             not drag the fit). Beaton & Tukey (1974); Holland & Welsch (1977) for IRLS;
+ *             Maronna, Martin & Yohai (2006), Robust Statistics, sections 2.2, 4.4 and 5.5.
+ *             A trimmed start is needed: a convex (Huber) start lets several cells displaced
+ *             the same way pull the frame, and the biweight then stays in that local solution.
  *
  * Every step is symmetric in the two templates: aligning A to B gives exactly the
  * inverse transform, the same weights and the same standardized residuals.
@@ -97,7 +102,7 @@ export function fitRobustAlignment(input: AlignmentInput, options: RobustAlignme
   const d = k > 0 ? source[0].length : 0;
   if (k < d + 1 || k < 3) throw new FitError(`robust alignment needs at least ${Math.max(3, d + 1)} shared cells, got ${k}`);
   const fitFn = kind === 'rigid' ? fitRigid : fitSymmetricSimilarity;
-  const huberK = Math.sqrt(chiSquareQuantile(0.9, d));
+  const keep = Math.min(k, Math.max(d + 1, Math.ceil(0.75 * k)));
   const cutoff = Math.sqrt(chiSquareQuantile(1 - cutoffProbability, d));
   const medianChi = Math.sqrt(chiSquareQuantile(0.5, d));
 
@@ -118,7 +123,7 @@ export function fitRobustAlignment(input: AlignmentInput, options: RobustAlignme
   let iterations = 0;
   let converged = false;
 
-  const update = (phase: 'huber' | 'biweight'): void => {
+  const update = (phase: 'trim' | 'biweight'): void => {
     v = residualCovariances(fit);
     pi = precisionWeightsOf(v);
     m = source.map((b, i) => {
@@ -130,18 +135,32 @@ export function fitRobustAlignment(input: AlignmentInput, options: RobustAlignme
       return Math.sqrt(Math.max(0, q));
     });
     s = Math.max(1, median(m) / medianChi);
-    omega = m.map((mi) => {
-      const u = mi / s;
-      if (phase === 'huber') return u <= huberK ? 1 : huberK / u;
-      return u < cutoff ? (1 - (u / cutoff) ** 2) ** 2 : 0;
-    });
+    if (phase === 'trim') {
+      const order = m.map((_, i) => i).sort((x, y) => m[x] - m[y] || x - y);
+      omega = new Array<number>(k).fill(0);
+      for (const i of order.slice(0, keep)) omega[i] = 1;
+    } else {
+      omega = m.map((mi) => {
+        const u = mi / s;
+        return u < cutoff ? (1 - (u / cutoff) ** 2) ** 2 : 0;
+      });
+    }
   };
 
-  for (const phase of ['huber', 'biweight'] as const) {
+  for (const phase of ['trim', 'biweight'] as const) {
     converged = false;
+    let previousSubset = '';
     for (let it = 0; it < maxIterations; it++) {
       iterations++;
       update(phase);
+      if (phase === 'trim') {
+        const subset = omega.join(',');
+        if (subset === previousSubset) {
+          converged = true;
+          break;
+        }
+        previousSubset = subset;
+      }
       const weights = pi.map((p, i) => p * omega[i]);
       const kept = weights.filter((w) => w > 0).length;
       if (kept < d + 1) {

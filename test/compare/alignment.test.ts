@@ -89,3 +89,20 @@ describe('fitSymmetricSimilarity (Horn 1987, section 2.E)', () => {
     expect(fit.meanSquaredResidual).toBeCloseTo(0, 10);
   });
 });
+
+describe('fitRobustAlignment with several cells displaced the same way', () => {
+  it('leaves out 6 of 30 cells shifted by 2 um (about 7 standard errors) along x, and fits the frame as well as a fit told which cells moved (5 seeds)', () => {
+    for (const seed of [21, 22, 23, 24, 25]) {
+      const { input, truth } = scenario(seed, 6, 2);
+      const robust = fitRobustAlignment(input);
+      expect(robust.robustWeights.slice(0, 6)).toEqual([0, 0, 0, 0, 0, 0]);
+      // oracle: the same kind of fit on the 24 undisplaced cells only
+      const oracle = fitSymmetricSimilarity(input.source.slice(6), input.target.slice(6));
+      const oracleError = worstError(oracle.transform, truth, input.source);
+      const robustError = worstError(robust.transform, truth, input.source);
+      expect(robustError).toBeLessThan(oracleError + 0.1);
+      // while the plain fit on all 30 cells is dragged further
+      expect(worstError(fitSymmetricSimilarity(input.source, input.target).transform, truth, input.source)).toBeGreaterThan(robustError);
+    }
+  });
+});
