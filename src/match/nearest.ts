@@ -48,6 +48,9 @@ export class PointIndex {
   private readonly nodeSplit: Float64Array;
   private readonly nodeLeft: Int32Array;
   private readonly nodeRight: Int32Array;
+  /** Work stack for `nearest` (node ids and the squared plane distance bounding each). */
+  private readonly stack: Int32Array;
+  private readonly stackBound: Float64Array;
 
   /**
    * @param points n x d coordinates (n >= 0, every row the same length d >= 1, all finite).
@@ -130,6 +133,9 @@ export class PointIndex {
     this.nodeSplit = Float64Array.from(splits);
     this.nodeLeft = Int32Array.from(lefts);
     this.nodeRight = Int32Array.from(rights);
+    // Depth-first search keeps at most (tree depth + 1) * 2 entries; the node count is a safe bound.
+    this.stack = new Int32Array(starts.length + 1);
+    this.stackBound = new Float64Array(starts.length + 1);
   }
 
   /**
@@ -139,8 +145,50 @@ export class PointIndex {
   nearest(q: readonly number[]): Neighbour {
     this.checkQuery('nearest', q);
     if (this.size === 0) throw new FitError('PointIndex.nearest: the index holds no points');
-    const result = this.kNearest(q, 1);
-    return result[0];
+    // Specialised k = 1 search with an explicit stack (no allocation per visited node).
+    const d = this.dim;
+    const data = this.data;
+    const ids = this.ids;
+    const stack = this.stack;
+    let top = 0;
+    stack[top] = 0;
+    this.stackBound[top++] = 0;
+    let bestD = Infinity;
+    let bestI = -1;
+    while (top > 0) {
+      --top;
+      if (this.stackBound[top] > bestD) continue; // the splitting plane is already farther than the best
+      const node = stack[top];
+      const left = this.nodeLeft[node];
+      if (left < 0) {
+        const end = this.nodeEnd[node];
+        for (let p = this.nodeStart[node]; p < end; p++) {
+          const o = p * d;
+          let s = 0;
+          for (let j = 0; j < d; j++) {
+            const a = data[o + j] - q[j];
+            s += a * a;
+          }
+          if (s < bestD || (s === bestD && ids[p] < bestI)) {
+            bestD = s;
+            bestI = ids[p];
+          }
+        }
+        continue;
+      }
+      const diff = q[this.nodeAxis[node]] - this.nodeSplit[node];
+      const near = diff < 0 ? left : this.nodeRight[node];
+      const far = diff < 0 ? this.nodeRight[node] : left;
+      // Push the far side first (with its plane bound) so the near side is searched first.
+      const bound = diff * diff;
+      if (bound <= bestD) {
+        stack[top] = far;
+        this.stackBound[top++] = bound;
+      }
+      stack[top] = near;
+      this.stackBound[top++] = 0;
+    }
+    return { index: bestI, distanceSquared: bestD };
   }
 
   /**
