@@ -18,7 +18,7 @@ export interface CompareReportOptions extends CompareFigureOptions {
 /** Plain-text cautions for any presentation of a comparison. */
 export function comparisonCautions(result: TemplateComparison): string[] {
   return [
-    `Displacements are measured after aligning B to A on the shared cells (${result.alignment.kind} fit). A change spread evenly over many cells is partly absorbed by the alignment; the overall shape difference below speaks to that.`,
+    `Displacements are measured after aligning B to A on the shared cells (${result.alignment.kind} fit). A change spread evenly over many cells is partly absorbed by the alignment; the overall shape difference (Procrustes distance and permutation test) speaks to that.`,
     `p-values treat the alignment as known and use each template's stored covariance${
       result.covariance === 'template' ? ' (shrunk toward the pooled covariance)' : ' (recomputed sample covariance)'
     } and count; they are approximate. q-values control the expected share of false calls among the cells called different, not the error of any one cell.`,
