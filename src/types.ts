@@ -106,7 +106,7 @@ export interface TemplateSettings {
   readonly minCount: number;
   /** Strength (pseudo-observations) of the pooled-covariance prior. */
   readonly priorStrength: number;
-  /** Chi-square tail probability below which a hand label is flagged. */
+  /** Tail probability below which a hand label is flagged (see flagReference). */
   readonly flagProbability: number;
   /** Robust weight function used for the consensus. */
   readonly robust: string;
@@ -116,6 +116,11 @@ export interface TemplateSettings {
    * 'sample-to-template' (ordinary generalised Procrustes).
    */
   readonly memberFit?: 'template-to-sample' | 'sample-to-template';
+  /**
+   * Tail distribution used with flagProbability: 'student-t' (the cell's predictive
+   * multivariate t; the default when absent) or 'chi-square'.
+   */
+  readonly flagReference?: 'student-t' | 'chi-square';
 }
 
 export interface Template {

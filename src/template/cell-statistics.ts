@@ -24,6 +24,8 @@
 import { FitError } from '../errors.js';
 import { symmetricEigen, zeros } from '../geometry/index.js';
 import type { Matrix, Template, TemplateCell } from '../types.js';
+import { chiSquareQuantile } from './chi-square.js';
+import { fQuantile } from './f-distribution.js';
 
 /** Smallest eigenvalue allowed in the pooled covariance: (0.001 um)^2. */
 export const POOLED_EIGENVALUE_FLOOR = 1e-6;
@@ -144,3 +146,37 @@ export function cellsFromSums(
   }));
   return { cells, pooled };
 }
+
+/** Reference distribution for flagging: see `predictiveCutoff`. */
+export type FlagReference = 'student-t' | 'chi-square';
+
+/**
+ * The squared Mahalanobis radius, in units of the predictive covariance
+ * (1 + 1/n) Sigma_k, beyond which an observation of a cell with n observations
+ * has tail probability below `tail`.
+ *
+ * 'student-t' (default): under the conjugate model of this module (flat prior on
+ * the mean, Sigma_k ~ IW(nu_0 + d + n, nu_0 Sigma_pool + W_k) a posteriori) the
+ * predictive of a new observation is multivariate t with nu = nu_0 + n + 1 degrees
+ * of freedom and scale (1 + 1/n)(nu_0 Sigma_pool + W_k) / nu (Gelman et al.,
+ * Bayesian Data Analysis, 3rd ed., 3.6; Kotz & Nadarajah, Multivariate t
+ * Distributions, 2004, 1.4: D_t^2 / d ~ F(d, nu)). In units of (1 + 1/n) Sigma_k:
+ *   r^2 = d F^-1_{d, nu}(1 - tail) (nu_0 + n - 1) / (nu_0 + n + 1).
+ * It tends to the chi-square quantile as n grows and is wider for small n, where
+ * Sigma_k is uncertain.
+ * 'chi-square': r^2 = chi2_d^-1(1 - tail), ignoring the uncertainty of Sigma_k.
+ * Results are cached per (n, d, nu_0, tail, reference).
+ */
+export function predictiveCutoff(n: number, d: number, priorStrength: number, tail: number, reference: FlagReference = 'student-t'): number {
+  const key = `${reference}|${n}|${d}|${priorStrength}|${tail}`;
+  const hit = cutoffCache.get(key);
+  if (hit !== undefined) return hit;
+  const value =
+    reference === 'chi-square'
+      ? chiSquareQuantile(1 - tail, d)
+      : (d * fQuantile(1 - tail, d, priorStrength + n + 1) * (priorStrength + n - 1)) / (priorStrength + n + 1);
+  if (cutoffCache.size > 10000) cutoffCache.clear();
+  cutoffCache.set(key, value);
+  return value;
+}
+const cutoffCache = new Map<string, number>();

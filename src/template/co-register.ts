@@ -47,7 +47,11 @@
  *    computed WITHOUT y (n', m', W', so a wrong label cannot mask itself):
  *      Sigma' = (nu_0 Sigma_pool + W') / (nu_0 + n' - 1),   (cell-statistics.ts)
  *      D^2 = (y - m')^T [(1 + 1/n') Sigma']^-1 (y - m'),
- *      w = 1 if D^2 <= chi2_d^-1(1 - flagProbability), else 0.
+ *      w = 1 if D^2 <= r^2(n'), else 0,
+ *    r^2(n') the radius beyond which the cell's predictive has tail probability
+ *    flagProbability: the multivariate Student-t predictive of the conjugate model
+ *    by default, the chi-square quantile chi2_d^-1(1 - flagProbability) with
+ *    flagReference 'chi-square' (cell-statistics.ts, predictiveCutoff).
  *    Cells with n' < 2 are not checked (w = 1). Truncation at the 0.999 quantile
  *    leaves clean covariances about 1% small (consistency factor of Croux &
  *    Haesbroeck 1999, not applied: sufficient statistics stay exact sums).
@@ -74,8 +78,7 @@ import {
   zeros,
 } from '../geometry/index.js';
 import type { Dim, Points, TemplateSettings, Transform } from '../types.js';
-import { pooledCovariance } from './cell-statistics.js';
-import { chiSquareQuantile } from './chi-square.js';
+import { pooledCovariance, predictiveCutoff } from './cell-statistics.js';
 import { canonicalFrame } from './frame.js';
 
 /** One sample's labelled points, the unit co-registration works on. */
@@ -191,7 +194,8 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
   let transforms = start.transforms;
   let kept = entries.map((e) => e.labels.map(() => true));
   let distance = entries.map((e) => e.labels.map(() => Number.NaN));
-  const cutoff = chiSquareQuantile(1 - settings.flagProbability, dim);
+  const reference = settings.flagReference ?? 'student-t';
+  const cutoff = (n: number) => predictiveCutoff(n, dim, settings.priorStrength, settings.flagProbability, reference);
   const direction = settings.memberFit ?? 'template-to-sample';
 
   // Initial frame.
@@ -462,7 +466,7 @@ export function robustWeights(
   k: number,
   dim: number,
   priorStrength: number,
-  cutoff: number,
+  cutoff: (n: number) => number,
 ): { kept: boolean[][]; distance: number[][] } {
   // Kept statistics per cell: n, mean, scatter (two passes for accuracy).
   const n = new Array<number>(k).fill(0);
@@ -516,7 +520,7 @@ export function robustWeights(
         for (let b = 0; b < dim; b++) cov[a][b] = (infl * (priorStrength * pooled[a][b] + scatter[c][a][b] - f * r[a] * r[b])) / denom;
       for (let a = 0; a < dim; a++) for (let b = 0; b < a; b++) cov[a][b] = cov[b][a];
       const d2 = mahalanobisSquared(y, m1, precisionMatrix(cov));
-      rowKept.push(d2 <= cutoff);
+      rowKept.push(d2 <= cutoff(n1));
       rowDist.push(Math.sqrt(d2));
     }
     outKept.push(rowKept);

@@ -5,8 +5,8 @@
  * the labelled cells it shares with the template (the template held fixed; the
  * same transform family as the template), with the same hard-rejection
  * reweighting as the build: a shared label whose squared Mahalanobis distance
- * under the cell's predictive covariance (1 + 1/n_k) Sigma_k exceeds
- * chi2_d^-1(1 - flagProbability) gets weight 0 in the fit and is flagged; the fit
+ * under the cell's predictive covariance (1 + 1/n_k) Sigma_k exceeds the
+ * predictive radius r^2(n_k) (cell-statistics.ts, predictiveCutoff) gets weight 0 in the fit and is flagged; the fit
  * and the check repeat until the kept set stops changing. The template's own
  * statistics never contain the new sample, so this is a leave-one-out check as
  * in the build. The kept aligned positions are then added to the cells' exact
@@ -27,8 +27,7 @@ import { FitError } from '../errors.js';
 import { applyTransform, mahalanobisSquared, precisionMatrix } from '../geometry/index.js';
 import type { FlaggedLabel, Sample, Template, TemplateMember, Transform } from '../types.js';
 import { assembleTemplate, entryFromMember, entryFromSample, registerAndSummarise } from './build.js';
-import { addObservationInPlace, cellsFromSums, emptySums, predictiveCovariance, type CellSums } from './cell-statistics.js';
-import { chiSquareQuantile } from './chi-square.js';
+import { addObservationInPlace, cellsFromSums, emptySums, predictiveCovariance, predictiveCutoff, type CellSums } from './cell-statistics.js';
 import { fitMemberMap, minAlignmentPoints, type LabelledEntry, type SkippedSample } from './co-register.js';
 import { likelierCell } from './hand-labels.js';
 import { resolveSettings, type BuildOptions } from './settings.js';
@@ -108,7 +107,8 @@ export function addToTemplate(template: Template, samples: readonly Sample[], op
   const d = template.dim;
   const kind = settings.alignment;
   const minPoints = minAlignmentPoints(kind, d);
-  const cutoff = chiSquareQuantile(1 - settings.flagProbability, d);
+  const reference = settings.flagReference ?? 'student-t';
+  const cutoff = (n: number) => predictiveCutoff(n, d, settings.priorStrength, settings.flagProbability, reference);
   const cellByLabel = new Map(template.cells.map((c) => [c.label, c]));
   const precision = new Map(template.cells.map((c) => [c.label, precisionMatrix(predictiveCovariance(c))]));
   const sums = new Map<string, CellSums>(
@@ -142,7 +142,7 @@ export function addToTemplate(template: Template, samples: readonly Sample[], op
         aligned = applyTransform(transform, e.coords);
         dist = e.labels.map((l, j) => (shared[j] ? Math.sqrt(mahalanobisSquared(aligned[j], cellByLabel.get(l)!.mean, precision.get(l)!)) : Number.NaN));
         if (settings.robust !== 'trimmed') break;
-        const next = shared.map((s, j) => s && dist[j] * dist[j] <= cutoff);
+        const next = shared.map((s, j) => s && dist[j] * dist[j] <= cutoff(cellByLabel.get(e.labels[j])!.count));
         const same = next.every((v, j) => v === kept[j]);
         kept = next;
         if (same) break;

@@ -3,10 +3,15 @@
  * its cell's distribution, the cell's statistics computed without that sample.
  *
  * A label is flagged when its leave-one-out squared Mahalanobis distance
- * (co-register.ts, step 5) exceeds the chi-square quantile
- * chi2_d^-1(1 - flagProbability): under a Gaussian cell and a correct label,
- * D^2 is approximately chi-square with d degrees of freedom (Mahalanobis 1936),
- * so about flagProbability of correct labels are flagged by chance. The
+ * (co-register.ts, step 5) exceeds the radius r^2(n') beyond which the cell's
+ * predictive distribution has tail probability flagProbability
+ * (cell-statistics.ts, predictiveCutoff): the multivariate Student-t of the
+ * conjugate model by default, or the chi-square quantile chi2_d^-1(1 - p) with
+ * flagReference 'chi-square' (Mahalanobis 1936: for a known covariance, D^2 of a
+ * Gaussian residual is chi-square with d degrees of freedom). With the chi-square
+ * reference and cells seen 10-20 times, about eight times flagProbability of the
+ * correct labels were flagged on synthetic animals, because each cell's
+ * covariance is itself estimated; the Student-t reference accounts for that. The
  * sample's own alignment is the robust one of the whole co-registration (not
  * refitted without the sample): its wrong labels carry weight 0 in its own fit.
  *

@@ -33,6 +33,12 @@ export interface BuildOptions {
    * regressed onto the template, as in ordinary generalised Procrustes (Gower 1975).
    */
   readonly memberFit?: 'template-to-sample' | 'sample-to-template';
+  /**
+   * Tail distribution of a hand label's leave-one-out Mahalanobis distance:
+   * 'student-t' (default; the cell's covariance is estimated, see predictiveCutoff)
+   * or 'chi-square' (covariance treated as known).
+   */
+  readonly flagReference?: 'student-t' | 'chi-square';
 }
 
 export const DEFAULT_SETTINGS: TemplateSettings = {
@@ -44,6 +50,7 @@ export const DEFAULT_SETTINGS: TemplateSettings = {
   flagProbability: 0.001,
   robust: 'trimmed',
   memberFit: 'template-to-sample',
+  flagReference: 'student-t',
 };
 
 /** Merge options over a base (the defaults, or a template's own settings) and check them. */
@@ -59,6 +66,7 @@ export function resolveSettings(options: BuildOptions = {}, base: TemplateSettin
     flagProbability: pick('flagProbability'),
     robust: pick('robust'),
     memberFit: options.memberFit ?? base.memberFit ?? 'template-to-sample',
+    flagReference: options.flagReference ?? base.flagReference ?? 'student-t',
   };
   if (!(s.tolerance >= 0) || !Number.isFinite(s.tolerance)) throw new UsageError(`tolerance must be a finite number >= 0, got ${s.tolerance}`);
   if (!Number.isInteger(s.maxIterations) || s.maxIterations < 1) throw new UsageError(`maxIterations must be an integer >= 1, got ${s.maxIterations}`);
@@ -69,6 +77,9 @@ export function resolveSettings(options: BuildOptions = {}, base: TemplateSettin
   if (s.robust !== 'trimmed' && s.robust !== 'none') throw new UsageError(`robust must be trimmed or none, got ${s.robust}`);
   if (s.memberFit !== 'template-to-sample' && s.memberFit !== 'sample-to-template') {
     throw new UsageError(`memberFit must be template-to-sample or sample-to-template, got ${s.memberFit}`);
+  }
+  if (s.flagReference !== 'student-t' && s.flagReference !== 'chi-square') {
+    throw new UsageError(`flagReference must be student-t or chi-square, got ${s.flagReference}`);
   }
   return s;
 }

@@ -38,7 +38,7 @@ describe('buildTemplate', () => {
     expect(template.dim).toBe(3);
     expect(template.tool).toEqual({ name: 'cairn', version: VERSION });
     expect(template.created).toBeUndefined();
-    expect(template.settings).toEqual({ tolerance: 1e-11, maxIterations: 500, alignment: 'similarity', minCount: 5, priorStrength: 5, flagProbability: 0.001, robust: 'trimmed', memberFit: 'template-to-sample' });
+    expect(template.settings).toEqual({ tolerance: 1e-11, maxIterations: 500, alignment: 'similarity', minCount: 5, priorStrength: 5, flagProbability: 0.001, robust: 'trimmed', memberFit: 'template-to-sample', flagReference: 'student-t' });
     expect(template.members.map((m) => m.id)).toEqual(partialSet().map((s) => s.id));
   });
 
@@ -161,9 +161,11 @@ describe('buildTemplate with hand-label errors', () => {
     [labels[0], labels[9]] = [labels[9], labels[0]];
     samples[3] = { ...samples[3], labels };
     const { template, flagged } = buildTemplate(samples);
-    // On the clean fixture one label (c7 row 14, D = 5.16) is already flagged by chance; the swap adds exactly two.
-    const clean = buildTemplate(fx.configurations.map((c, i) => sampleFromConfiguration(`c${i + 1}`, c))).flagged;
-    expect(clean.map((f) => `${f.sample}:${f.row}`)).toEqual(['c7:14']);
+    // On the clean fixture nothing is flagged with the default Student-t reference; with the chi-square
+    // reference one label (c7 row 14, D = 5.16, D^2 = 26.6 > 16.27) is flagged by chance.
+    const cleanSamples = fx.configurations.map((c, i) => sampleFromConfiguration(`c${i + 1}`, c));
+    expect(buildTemplate(cleanSamples).flagged).toEqual([]);
+    expect(buildTemplate(cleanSamples, { flagReference: 'chi-square' }).flagged.map((f) => `${f.sample}:${f.row}`)).toEqual(['c7:14']);
     expect(flagged.filter((f) => f.sample === 'c4').map((f) => [f.sample, f.row, f.label, f.likelierLabel])).toEqual([
       ['c4', 2, 'L10', 'L01'],
       ['c4', 11, 'L01', 'L10'],
@@ -172,7 +174,7 @@ describe('buildTemplate with hand-label errors', () => {
       expect(f.distance).toBeGreaterThan(Math.sqrt(16.266)); // chi2_3 0.999 quantile (scipy 1.10.1)
       expect(f.likelierDistance!).toBeLessThan(f.distance);
     }
-    expect(flagged.length).toBe(3);
+    expect(flagged.length).toBe(2);
     expect(template.flagged).toEqual(flagged);
     expect(template.cells.find((c) => c.label === 'L01')!.count).toBe(samples.length - 1);
   });

@@ -6,6 +6,7 @@ import {
   floorEigenvalues,
   pooledCovariance,
   predictiveCovariance,
+  predictiveCutoff,
   scatterFromSums,
   shrunkCovariance,
 } from '../../src/template/cell-statistics.js';
@@ -127,5 +128,17 @@ describe('predictiveCovariance', () => {
     expect(coverage).toBeGreaterThan(0.9);
     expect(coverage).toBeLessThan(0.99);
     expect(inPredictive).toBeGreaterThanOrEqual(inPlain);
+  });
+});
+
+describe('predictiveCutoff', () => {
+  // scipy 1.10.1 (Debian python3-scipy): f.ppf(0.999, 3, 16) = 9.005936855560376; chi2.ppf(0.999, 3) = 16.26623619623813.
+  it('is d F^-1_{d, nu0+n+1}(1 - p) (nu0 + n - 1) / (nu0 + n + 1) for the Student-t reference (n = 10, nu0 = 5, d = 3)', () => {
+    expect(predictiveCutoff(10, 3, 5, 0.001)).toBeCloseTo((3 * 9.005936855560376 * 14) / 16, 9);
+  });
+  it('is the chi-square quantile for the chi-square reference, and the Student-t radius approaches it as n grows', () => {
+    expect(predictiveCutoff(10, 3, 5, 0.001, 'chi-square')).toBeCloseTo(16.26623619623813, 9);
+    expect(predictiveCutoff(100000, 3, 5, 0.001)).toBeCloseTo(16.26623619623813, 1);
+    expect(predictiveCutoff(10, 3, 5, 0.001)).toBeGreaterThan(predictiveCutoff(40, 3, 5, 0.001));
   });
 });
