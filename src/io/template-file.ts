@@ -31,6 +31,9 @@ const MEMBER_KEYS = ['id', 'hash', 'transform', 'residual', 'labelled', 'positio
 const SETTINGS_KEYS = ['tolerance', 'maxIterations', 'alignment', 'minCount', 'priorStrength', 'flagProbability', 'robust'] as const;
 const FLAG_KEYS = ['sample', 'row', 'label', 'distance', 'likelierLabel', 'likelierDistance'] as const;
 const ALIGNMENTS = ['similarity', 'rigid', 'affine'] as const;
+const OPTIONAL_SETTINGS_KEYS = ['memberFit', 'flagReference'] as const;
+const MEMBER_FITS = ['template-to-sample', 'sample-to-template'] as const;
+const FLAG_REFERENCES = ['student-t', 'chi-square'] as const;
 
 // ---------------------------------------------------------------- writing
 
@@ -38,31 +41,50 @@ type Json = null | boolean | number | string | readonly Json[] | { readonly [key
 
 /**
  * The template as canonical JSON text. Keys appear in the order of the
- * `Template` type in src/types.ts; fields not in the type are dropped.
- * Throws UsageError for a non-finite number anywhere in the template.
+ * `Template` type in src/types.ts. Throws UsageError for a non-finite number
+ * anywhere in the template, and for a field the file format does not know
+ * (so that nothing is silently dropped).
  */
 export function serializeTemplate(t: Template): string {
   return writeJson(canonicalTemplate(t), '') + '\n';
 }
 
+/**
+ * Throws UsageError when `obj` has a field the file format does not know: a
+ * field added to the types in src/types.ts must be added to this writer, the
+ * reader and docs/template.schema.json, never silently dropped.
+ */
+function assertKnownKeys(obj: object, known: readonly string[], path: string): void {
+  for (const key of Object.keys(obj)) {
+    if (!known.includes(key) && (obj as Record<string, unknown>)[key] !== undefined) {
+      throw new UsageError(
+        `serializeTemplate: ${path ? path + '.' : ''}${key} is not part of the template file format; add it to src/io/template-file.ts and docs/template.schema.json`,
+      );
+    }
+  }
+}
+
 function canonicalTemplate(t: Template): Json {
+  assertKnownKeys(t, [...TOP_KEYS, 'created'], '');
+  assertKnownKeys(t.tool, ['name', 'version'], 'tool');
   const out: Record<string, Json> = {
     format: t.format,
     version: t.version,
     dim: t.dim,
     units: t.units,
-    cells: t.cells.map(canonicalCell),
-    members: t.members.map(canonicalMember),
+    cells: t.cells.map((c, i) => canonicalCell(c, i)),
+    members: t.members.map((m, i) => canonicalMember(m, i)),
     pooledCovariance: matrixJson(t.pooledCovariance),
     settings: canonicalSettings(t.settings),
-    flagged: t.flagged.map(canonicalFlag),
+    flagged: t.flagged.map((f, i) => canonicalFlag(f, i)),
     tool: { name: t.tool.name, version: t.tool.version },
   };
   if (t.created !== undefined) out.created = t.created;
   return out;
 }
 
-function canonicalCell(c: TemplateCell): Json {
+function canonicalCell(c: TemplateCell, i: number): Json {
+  assertKnownKeys(c, CELL_KEYS, `cells[${i}]`);
   return {
     label: c.label,
     mean: c.mean.slice(),
@@ -74,7 +96,10 @@ function canonicalCell(c: TemplateCell): Json {
   };
 }
 
-function canonicalMember(m: TemplateMember): Json {
+function canonicalMember(m: TemplateMember, i: number): Json {
+  assertKnownKeys(m, MEMBER_KEYS, `members[${i}]`);
+  assertKnownKeys(m.transform, ['kind', 'linear', 'translation'], `members[${i}].transform`);
+  m.positions.forEach((p, k) => assertKnownKeys(p, ['label', 'coords', 'row'], `members[${i}].positions[${k}]`));
   return {
     id: m.id,
     hash: m.hash,
@@ -93,7 +118,8 @@ function canonicalTransform(t: Transform): Json {
 }
 
 function canonicalSettings(s: TemplateSettings): Json {
-  return {
+  assertKnownKeys(s, [...SETTINGS_KEYS, ...OPTIONAL_SETTINGS_KEYS], 'settings');
+  const out: Record<string, Json> = {
     tolerance: s.tolerance,
     maxIterations: s.maxIterations,
     alignment: s.alignment,
@@ -102,9 +128,21 @@ function canonicalSettings(s: TemplateSettings): Json {
     flagProbability: s.flagProbability,
     robust: s.robust,
   };
+  // Optional settings, written only when set (older files lack them; readers use the defaults).
+  const optional = s as OptionalSettings;
+  if (optional.memberFit !== undefined) out.memberFit = optional.memberFit;
+  if (optional.flagReference !== undefined) out.flagReference = optional.flagReference;
+  return out;
 }
 
-function canonicalFlag(f: FlaggedLabel): Json {
+/** Optional settings fields (read through this type so that the file format does not depend on their being in TemplateSettings yet). */
+interface OptionalSettings {
+  readonly memberFit?: (typeof MEMBER_FITS)[number];
+  readonly flagReference?: (typeof FLAG_REFERENCES)[number];
+}
+
+function canonicalFlag(f: FlaggedLabel, i: number): Json {
+  assertKnownKeys(f, FLAG_KEYS, `flagged[${i}]`);
   return {
     sample: f.sample,
     row: f.row,
@@ -336,10 +374,10 @@ function readTransform(check: JsonChecker, value: unknown, path: string, dim: Di
 }
 
 function readSettings(check: JsonChecker, value: unknown): TemplateSettings | undefined {
-  const o = check.object(value, 'settings', SETTINGS_KEYS);
+  const o = check.object(value, 'settings', SETTINGS_KEYS, OPTIONAL_SETTINGS_KEYS);
   if (!o) return undefined;
   const before = check.errors.length;
-  const s = {
+  const s: Record<string, unknown> = {
     tolerance: check.number(o.tolerance, 'settings.tolerance', { min: 0, exclusiveMin: true }),
     maxIterations: check.number(o.maxIterations, 'settings.maxIterations', { min: 1, integer: true }),
     alignment: check.oneOf(o.alignment, 'settings.alignment', ALIGNMENTS),
@@ -348,8 +386,10 @@ function readSettings(check: JsonChecker, value: unknown): TemplateSettings | un
     flagProbability: check.number(o.flagProbability, 'settings.flagProbability', { min: 0, max: 1 }),
     robust: check.string(o.robust, 'settings.robust'),
   };
+  if (o.memberFit !== undefined) s.memberFit = check.oneOf(o.memberFit, 'settings.memberFit', MEMBER_FITS);
+  if (o.flagReference !== undefined) s.flagReference = check.oneOf(o.flagReference, 'settings.flagReference', FLAG_REFERENCES);
   if (check.errors.length > before) return undefined;
-  return s as TemplateSettings;
+  return s as unknown as TemplateSettings;
 }
 
 function readFlag(check: JsonChecker, value: unknown, path: string): FlaggedLabel | undefined {

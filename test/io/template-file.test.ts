@@ -112,6 +112,14 @@ describe('serializeTemplate', () => {
     expect(() => serializeTemplate(bad)).toThrow(UsageError);
   });
 
+  it('refuses a field the file format does not know instead of dropping it', () => {
+    const t = exampleTemplate2d();
+    const bad = { ...t, settings: { ...t.settings, colour: 'red' } } as unknown as Template;
+    expect(() => serializeTemplate(bad)).toThrow(
+      'serializeTemplate: settings.colour is not part of the template file format; add it to src/io/template-file.ts and docs/template.schema.json',
+    );
+  });
+
   it('output validates against docs/template.schema.json (ajv, draft 2020-12)', () => {
     for (const t of [exampleTemplate2d(), exampleTemplate3d()]) {
       const ok = validateSchema(JSON.parse(serializeTemplate(t)));
@@ -138,6 +146,22 @@ describe('parseTemplate', () => {
       expect(back).toEqual(t);
       expect(serializeTemplate(back)).toBe(text);
     }
+  });
+
+  it('keeps the optional settings memberFit and flagReference, and rejects unknown values of them', () => {
+    const j = asJson(exampleTemplate2d());
+    const settings = j.settings as Record<string, unknown>;
+    settings.memberFit = 'sample-to-template';
+    settings.flagReference = 'chi-square';
+    const t = parseTemplate(JSON.stringify(j), 't.json');
+    expect(t.settings).toMatchObject({ memberFit: 'sample-to-template', flagReference: 'chi-square' });
+    const text = serializeTemplate(t);
+    expect(text).toContain('"robust": "tukey-biweight",\n    "memberFit": "sample-to-template",\n    "flagReference": "chi-square"\n');
+    expect(validateSchema(JSON.parse(text))).toBe(true);
+    settings.memberFit = 'sideways';
+    expect(messageOf(() => parseTemplate(JSON.stringify(j), 't.json'))).toBe(
+      't.json: column "settings.memberFit": must be one of "template-to-sample", "sample-to-template", got "sideways"',
+    );
   });
 
   it('keeps the optional row of member positions', () => {
