@@ -11,6 +11,7 @@ import { registerBuild } from './build.js';
 import { registerCheck } from './check.js';
 import { registerInspect } from './inspect.js';
 import { registerCompare } from './compare.js';
+import { registerEvaluate } from './evaluate.js';
 
 export interface CliIo {
   stdout: (text: string) => void;
@@ -25,7 +26,7 @@ const processIo: CliIo = {
 /** Each command module exports a function that adds itself to the program. */
 export type CommandRegistrar = (program: Command, io: CliIo) => void;
 
-const registrars: CommandRegistrar[] = [registerCheck, registerInspect, registerBuild, registerAdd, registerCompare];
+const registrars: CommandRegistrar[] = [registerCheck, registerInspect, registerBuild, registerAdd, registerCompare, registerEvaluate];
 
 export function createProgram(io: CliIo = processIo): Command {
   const program = new Command();
