@@ -1,8 +1,9 @@
 /**
  * `cairn check SAMPLES... [--voxel-size X,Y[,Z]] [--json]`: validate sample
  * files without writing anything. Prints, per sample, its points, labelled
- * points and dimension; on bad input lists every error found (all files, all
- * rows) and exits 1.
+ * points and dimension, then the hand labels that look wrong (warnings, from
+ * `handLabelCheckSection` in build.ts); on bad input lists every error found
+ * (all files, all rows) and exits 1.
  *
  * Shape: read (src/io) -> `buildCheckReport` (a plain object) -> render as text
  * or JSON. Further checks (for example suspicious hand labels) add a
@@ -12,6 +13,7 @@ import { InvalidArgumentError, type Command } from 'commander';
 import { UsageError, type InputError } from '../errors.js';
 import { parseVoxelSize, readSamplesCollect, type SampleReadResult } from '../io/sample-reader.js';
 import type { Sample } from '../types.js';
+import { handLabelCheckSection } from './build.js';
 import { CommandFailed, type CliIo } from './main.js';
 
 export interface CheckOptions {
@@ -154,6 +156,8 @@ export function voxelSizeOption(text: string): number[] {
 export function runCheck(paths: readonly string[], options: CheckOptions, io: CliIo): void {
   const result = readSamplesCollect(paths, { voxelSize: options.voxelSize });
   const report = buildCheckReport(result);
+  // Suspicious hand labels, among the samples that were read without errors (warnings, not errors).
+  if (result.samples.length > 0) report.sections.push(handLabelCheckSection(result.samples));
   const text = renderCheckText(report);
   io.stdout(options.json ? renderCheckJson(report) : text.stdout);
   if (text.stderr) io.stderr(text.stderr);

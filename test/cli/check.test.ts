@@ -1,4 +1,5 @@
 import { describe, it, expect } from 'vitest';
+import * as fs from 'node:fs';
 import * as path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { main, type CliIo } from '../../src/cli/main.js';
@@ -36,25 +37,42 @@ describe('cairn check', () => {
       `${id.padEnd(8)}  ${file.padEnd(w)}  ${String(points).padStart(6)}  ${String(labelled).padStart(8)}  3-D  gfp\n`;
     // Counts read off the fixture files by hand: animal-a 8 rows, 6 labels; animal-b 7 rows, 4 labels;
     // long-table animal-c 4 rows, 3 labels and animal-d 4 rows, 3 labels.
-    expect(r.out).toBe(
+    const table =
       `${'sample'.padEnd(8)}  ${'file'.padEnd(w)}  points  labelled  dim  features\n` +
-        row('animal-a', A, 8, 6) +
-        row('animal-b', B, 7, 4) +
-        row('animal-c', LONG, 4, 3) +
-        row('animal-d', LONG, 4, 3) +
-        '4 samples in 3 files: no errors\n',
+      row('animal-a', A, 8, 6) +
+      row('animal-b', B, 7, 4) +
+      row('animal-c', LONG, 4, 3) +
+      row('animal-d', LONG, 4, 3);
+    expect(r.out.startsWith(table)).toBe(true);
+    // Then the hand-label section (src/cli/build.ts handLabelCheckSection) and the closing line.
+    expect(r.out).toContain('\nsuspicious hand labels');
+    expect(r.out.endsWith('4 samples in 3 files: no errors\n')).toBe(true);
+  });
+
+  it('reads the invented demo set in demo-data/ (16 animals, 2538 points, 958 hand labels) without errors', async () => {
+    const demo = path.join(samplesDir, '..', '..', '..', 'demo-data');
+    const files = ['labelled', 'unlabelled'].flatMap((d) =>
+      fs.readdirSync(path.join(demo, d)).filter((f) => f.endsWith('.csv')).sort().map((f) => path.relative(process.cwd(), path.join(demo, d, f))),
     );
+    const r = await run('check', ...files, '--json');
+    expect(r.code).toBe(0);
+    const doc = JSON.parse(r.out);
+    // Totals counted with a separate Python csv.DictReader pass over the same files.
+    expect([doc.samples.length, doc.samples.reduce((n: number, s: { points: number }) => n + s.points, 0), doc.samples.reduce((n: number, s: { labelled: number }) => n + s.labelled, 0)]).toEqual([16, 2538, 958]);
+    expect(doc.samples.every((s: { dim: number }) => s.dim === 3)).toBe(true);
   });
 
   it('prints a JSON report with --json', async () => {
     const r = await run('check', A, '--json');
     expect(r.code).toBe(0);
-    expect(JSON.parse(r.out)).toEqual({
+    const doc = JSON.parse(r.out);
+    expect(doc).toMatchObject({
       ok: true,
       files: 1,
       samples: [{ id: 'animal-a', file: A, points: 8, labelled: 6, dim: 3, features: ['gfp'] }],
       errors: [],
     });
+    expect(Object.keys(doc)).toEqual(['ok', 'files', 'samples', 'errors', 'handLabels']);
   });
 
   it('lists every error of every file on stderr, keeps reporting the valid samples, and exits 1', async () => {
