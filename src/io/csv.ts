@@ -11,6 +11,11 @@
  */
 import { InputError, UsageError } from '../errors.js';
 
+const COMMA = 44;
+const LF = 10;
+const CR = 13;
+const QUOTE = 34;
+
 /** One record: its fields (unquoted) and the 1-based line it starts on. */
 export interface CsvRecord {
   readonly fields: readonly string[];
@@ -85,9 +90,9 @@ export function parseCsvRecords(text: string, file: string): CsvRecord[] {
       } else {
         const start = i;
         while (i < n) {
-          const c = text[i];
-          if (c === ',' || c === '\n' || c === '\r') break;
-          if (c === '"') {
+          const c = text.charCodeAt(i);
+          if (c === COMMA || c === LF || c === CR) break;
+          if (c === QUOTE) {
             throw new InputError(
               { file, row: line },
               `field ${fields.length + 1}: a quote inside an unquoted field; enclose the whole field in quotes and double the inner quotes`,

@@ -87,6 +87,8 @@ export function parseSamplesCsvCollect(
 
   for (let r = 1; r < records.length; r++) {
     const { fields, line } = records[r];
+    // A line of only spaces or tabs counts as blank.
+    if (fields.length === 1 && fields[0].trim() === '' && width > 1) continue;
     if (fields.length !== width) {
       errors.push(
         new InputError(
