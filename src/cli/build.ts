@@ -90,7 +90,7 @@ export function addTemplateOptions(cmd: Command): Command {
     .option('--max-iterations <n>', 'iteration cap of the co-registration (default 100)', integerOption(1))
     .addOption(new Option('--alignment <kind>', 'transform family that aligns each sample (default similarity)').choices(['similarity', 'rigid', 'affine']))
     .option('--min-count <n>', 'cells seen by fewer samples are marked sparse (default 5)', integerOption(1))
-    .option('--prior-strength <n>', 'pseudo-observations of the pooled covariance in each cell covariance (default 5)', positiveNumberOption())
+    .option('--prior-strength <n>', 'pseudo-observations of the pooled covariance in each cell covariance (default 10)', positiveNumberOption())
     .option('--flag-probability <p>', 'tail probability of the cell\'s predictive distribution below which a hand label is flagged (default 0.001)', probabilityArgument)
     .option('--no-timestamp', 'leave the creation time out of the template (reproducible bytes)')
     .option('--force', 'replace the output file when it exists')

@@ -17,7 +17,7 @@ export interface BuildOptions {
   readonly alignment?: 'similarity' | 'rigid' | 'affine';
   /** Cells seen by fewer members are kept and marked sparse. Default 5. */
   readonly minCount?: number;
-  /** Pseudo-observations of the pooled-covariance prior (nu_0). Default 5. */
+  /** Pseudo-observations of the pooled-covariance prior (nu_0). Default 10 (held-out predictive log density on synthetic animals with 20 members was best at 10-20 and worse at 1-5). */
   readonly priorStrength?: number;
   /** Chi-square tail probability below which a hand label is flagged and left out. Default 0.001. */
   readonly flagProbability?: number;
@@ -46,7 +46,7 @@ export const DEFAULT_SETTINGS: TemplateSettings = {
   maxIterations: 100,
   alignment: 'similarity',
   minCount: 5,
-  priorStrength: 5,
+  priorStrength: 10,
   flagProbability: 0.001,
   robust: 'trimmed',
   memberFit: 'template-to-sample',

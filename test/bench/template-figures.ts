@@ -11,7 +11,7 @@
  *    (1 + 1/n) Sigma and by Sigma alone, at nominal 95% and 99%.
  * 4. Build time for 200 samples x 150 cells in 3-D.
  */
-import { applyTransform, fitRigid, fitSimilarity, mahalanobisSquared, precisionMatrix } from '../../src/geometry/index.js';
+import { applyTransform, fitRigid, fitSimilarity, gaussianLogDensity, mahalanobisSquared, precisionMatrix } from '../../src/geometry/index.js';
 import { createRng } from '../../src/random.js';
 import { buildTemplate, chiSquareQuantile, predictiveCovariance } from '../../src/template/index.js';
 import { fitMemberMap } from '../../src/template/co-register.js';
@@ -20,6 +20,9 @@ import type { Sample, Template } from '../../src/types.js';
 import { generateAnimal, generateLayout, type Layout, type AnimalOptions } from '../support/animals.js';
 
 const quick = process.argv.includes('--quick');
+const onlyArg = process.argv.find((a) => a.startsWith('--only='));
+const only = onlyArg ? Number(onlyArg.slice(7)) : 0;
+const want = (section: number) => only === 0 || only === section;
 const seeds = quick ? [1] : [1, 2, 3];
 
 const animalDefaults: AnimalOptions = { labelledFraction: 0.6, missingFraction: 0.15, outlierFraction: 0.2 };
@@ -40,6 +43,7 @@ function mean(v: number[]): number {
 }
 
 // 1. Mean error vs number of samples.
+if (want(1)) {
 console.log('1. template mean error vs truth (3-D, 190 cells, 60% labelled, 15% missing, 20% outliers, 1% swapped labels; mean of', seeds.length, 'seeds)');
 console.log('   N   RMS after similarity (um)   RMS after rigid (um)   per-cell jitter sd 1-3 um');
 for (const n of [5, 10, 20, 40]) {
@@ -55,7 +59,10 @@ for (const n of [5, 10, 20, 40]) {
   console.log(`  ${String(n).padStart(2)}   ${mean(sim).toFixed(3).padStart(10)}                 ${mean(rig).toFixed(3).padStart(10)}`);
 }
 
+}
+
 // 2. Hand-label check recall / precision.
+if (want(2)) {
 console.log('\n2. hand-label check (flagProbability 0.001), swaps between neighbouring cells (about 2 um apart, jitter sd 1-3 um); summed over', seeds.length, 'seeds');
 console.log('   reference    swapped   N   wrong labels   flagged   true flags   recall   precision   false flags per 1000 correct labels');
 for (const flagReference of ['student-t', 'chi-square'] as const) {
@@ -114,45 +121,54 @@ console.log('   far swaps (2% of labels swapped with a cell >= 15 um away), N = 
   console.log(`     wrong ${nWrong}, flagged ${nFlag}, true flags ${nTrue}: recall ${(nTrue / nWrong).toFixed(3)}, precision ${(nTrue / nFlag).toFixed(3)}`);
 }
 
+}
+
 // 3. Predictive coverage on held-out animals.
+if (want(3)) {
 console.log('\n3. coverage of held-out animals\' correctly labelled positions (leave-one-animal-out, N = 20 training, 3-D, 190 cells, no swapped labels)');
 {
   const rng = createRng(3001);
   const layout = generateLayout(rng, { dim: 3 });
   const animals = Array.from({ length: 21 + (quick ? 2 : 9) }, (_, i) => generateAnimal(layout, rng, `a${i}`, { ...animalDefaults, wrongLabelFraction: 0 }).sample);
   const levels = [0.95, 0.99];
-  const inPred = levels.map(() => 0), inPlain = levels.map(() => 0), inT = levels.map(() => 0);
-  let total = 0;
   const heldOut = animals.slice(20);
   const training = animals.slice(0, 20);
-  const { template } = buildTemplate(training);
-  const byLabel = new Map(template.cells.map((c) => [c.label, c]));
-  for (const held of heldOut) {
-    const idx = held.labels.map((l, i) => (l !== null && byLabel.has(l) ? i : -1)).filter((i) => i >= 0);
-    const t = fitMemberMap('similarity', idx.map((i) => held.coords[i]), idx.map((i) => byLabel.get(held.labels[i] as string)!.mean), 'template-to-sample');
-    const y = applyTransform(t, idx.map((i) => held.coords[i]));
-    idx.forEach((i, j) => {
-      const cell = byLabel.get(held.labels[i] as string)!;
-      const dPred = mahalanobisSquared(y[j], cell.mean, precisionMatrix(predictiveCovariance(cell)));
-      const dPlain = mahalanobisSquared(y[j], cell.mean, precisionMatrix(cell.covariance));
-      levels.forEach((p, k) => {
-        const q = chiSquareQuantile(p, 3);
-        if (dPred <= q) inPred[k]++;
-        if (dPlain <= q) inPlain[k]++;
-        if (dPred <= predictiveCutoff(cell.count, 3, template.settings.priorStrength, 1 - p)) inT[k]++;
+  for (const priorStrength of [1, 2, 5, 10, 20]) {
+    const inPred = levels.map(() => 0), inPlain = levels.map(() => 0), inT = levels.map(() => 0);
+    let total = 0, logDensity = 0;
+    const { template } = buildTemplate(training, { priorStrength });
+    const byLabel = new Map(template.cells.map((c) => [c.label, c]));
+    for (const held of heldOut) {
+      const idx = held.labels.map((l, i) => (l !== null && byLabel.has(l) ? i : -1)).filter((i) => i >= 0);
+      const t = fitMemberMap('similarity', idx.map((i) => held.coords[i]), idx.map((i) => byLabel.get(held.labels[i] as string)!.mean), 'template-to-sample');
+      const y = applyTransform(t, idx.map((i) => held.coords[i]));
+      idx.forEach((i, j) => {
+        const cell = byLabel.get(held.labels[i] as string)!;
+        const dPred = mahalanobisSquared(y[j], cell.mean, precisionMatrix(predictiveCovariance(cell)));
+        const dPlain = mahalanobisSquared(y[j], cell.mean, precisionMatrix(cell.covariance));
+        logDensity += gaussianLogDensity(y[j], cell.mean, predictiveCovariance(cell));
+        levels.forEach((p, k) => {
+          const q = chiSquareQuantile(p, 3);
+          if (dPred <= q) inPred[k]++;
+          if (dPlain <= q) inPlain[k]++;
+          if (dPred <= predictiveCutoff(cell.count, 3, priorStrength, 1 - p)) inT[k]++;
+        });
+        total++;
       });
-      total++;
-    });
+    }
+    console.log(`   priorStrength ${priorStrength}: ${heldOut.length} held-out animals, ${total} positions, mean Gaussian predictive log density ${(logDensity / total).toFixed(3)}`);
+    levels.forEach((p, k) =>
+      console.log(
+        `     nominal ${p}: Gaussian (1 + 1/n) Sigma covers ${(inPred[k] / total).toFixed(3)}, Sigma alone ${(inPlain[k] / total).toFixed(3)}, Student-t predictive ${(inT[k] / total).toFixed(3)}`,
+      ),
+    );
   }
-  console.log(`   ${heldOut.length} held-out animals, ${total} positions`);
-  levels.forEach((p, k) =>
-    console.log(
-      `   nominal ${p}: Gaussian (1 + 1/n) Sigma covers ${(inPred[k] / total).toFixed(3)}, Sigma alone ${(inPlain[k] / total).toFixed(3)}, Student-t predictive ${(inT[k] / total).toFixed(3)}`,
-    ),
-  );
+}
+
 }
 
 // 4. Build time.
+if (want(4)) {
 console.log('\n4. build time, 200 samples x 150 cells, 3-D (60% labelled, 15% missing, 20% outliers, 1% swapped)');
 {
   const rng = createRng(4001);
@@ -170,4 +186,5 @@ console.log('\n4. build time, 200 samples x 150 cells, 3-D (60% labelled, 15% mi
   const obs = last.template.cells.reduce((s, c) => s + c.count, 0);
   console.log(`   ${times.map((t) => (t / 1000).toFixed(2)).join(' s, ')} s (${runs} run${runs === 1 ? '' : 's'}); ${last.iterations.length} iterations, converged ${last.converged}, ${obs} kept observations, ${last.flagged.length} flagged`);
   console.log(`   node ${process.version}, single thread`);
+}
 }

@@ -38,7 +38,7 @@ describe('buildTemplate', () => {
     expect(template.dim).toBe(3);
     expect(template.tool).toEqual({ name: 'cairn', version: VERSION });
     expect(template.created).toBeUndefined();
-    expect(template.settings).toEqual({ tolerance: 1e-11, maxIterations: 500, alignment: 'similarity', minCount: 5, priorStrength: 5, flagProbability: 0.001, robust: 'trimmed', memberFit: 'template-to-sample', flagReference: 'student-t' });
+    expect(template.settings).toEqual({ tolerance: 1e-11, maxIterations: 500, alignment: 'similarity', minCount: 5, priorStrength: 10, flagProbability: 0.001, robust: 'trimmed', memberFit: 'template-to-sample', flagReference: 'student-t' });
     expect(template.members.map((m) => m.id)).toEqual(partialSet().map((s) => s.id));
   });
 
