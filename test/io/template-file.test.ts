@@ -101,6 +101,18 @@ describe('serializeTemplate', () => {
     expect(serializeTemplate(shuffled)).toBe(serializeTemplate(t));
   });
 
+  it('does not modify the template it is given (deeply frozen input)', () => {
+    const deepFreeze = <T>(v: T): T => {
+      if (v && typeof v === 'object') {
+        for (const x of Object.values(v)) deepFreeze(x);
+        Object.freeze(v);
+      }
+      return v;
+    };
+    const t = deepFreeze(exampleTemplate2d());
+    expect(serializeTemplate(t)).toBe(serializeTemplate(exampleTemplate2d()));
+  });
+
   it('omits "created" when the template has none (--no-timestamp)', () => {
     expect(serializeTemplate(exampleTemplate3d())).not.toContain('created');
     expect(serializeTemplate(exampleTemplate2d())).toContain('"created": "2026-12-01T23:30:00.000Z"');
