@@ -86,13 +86,18 @@ describe('parseSamplesJson', () => {
     });
   }
 
-  it('fuzz: random text and arbitrary JSON values throw nothing but cairn errors', () => {
+  it('fuzz: random text, edited valid files and arbitrary JSON values throw nothing but cairn errors', () => {
     const point = fc.record(
       { x: fc.jsonValue({ maxDepth: 1 }), y: fc.double(), z: fc.option(fc.double()), label: fc.option(fc.string({ maxLength: 4 })), features: fc.dictionary(fc.string({ maxLength: 3 }), fc.jsonValue({ maxDepth: 1 })) },
       { requiredKeys: [] },
     );
+    const valid = '{"samples": [{"id": "a", "points": [{"x": 1, "y": 2, "z": 3, "label": "VLa1", "features": {"gfp": 0.5}}, {"x": 4, "y": 5, "z": 6, "label": null, "features": {"gfp": 1}}]}]}';
     const hostile = fc.oneof(
       fc.string({ maxLength: 120 }),
+      fc.nat({ max: valid.length }).map((n) => valid.slice(0, n)),
+      fc
+        .tuple(fc.nat({ max: valid.length - 1 }), fc.nat({ max: 8 }), fc.string({ maxLength: 4 }))
+        .map(([at, del, ins]) => valid.slice(0, at) + ins + valid.slice(at + del)),
       fc.jsonValue({ maxDepth: 4 }).map((v) => JSON.stringify(v)),
       fc.array(point, { maxLength: 5 }).map((points) => JSON.stringify({ points })),
       fc.array(fc.record({ id: fc.jsonValue({ maxDepth: 1 }), points: fc.array(point, { maxLength: 3 }) }), { maxLength: 3 }).map((samples) => JSON.stringify({ samples })),

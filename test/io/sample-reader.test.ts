@@ -1,8 +1,9 @@
 import { describe, it, expect, beforeAll, afterAll } from 'vitest';
+import * as fc from 'fast-check';
 import * as fs from 'node:fs';
 import * as os from 'node:os';
 import * as path from 'node:path';
-import { InputError, UsageError } from '../../src/errors.js';
+import { InputError, isCairnError, UsageError } from '../../src/errors.js';
 import { parseVoxelSize, readSamples, readSamplesCollect } from '../../src/io/sample-reader.js';
 
 let dir: string;
@@ -79,6 +80,23 @@ describe('readSamples', () => {
 
   it('needs at least one path (UsageError)', () => {
     expect(() => readSamples([])).toThrow(UsageError);
+  });
+});
+
+describe('readSamples on arbitrary bytes', () => {
+  it('fuzz: files of random bytes (valid UTF-8 or not) give only cairn errors', () => {
+    fc.assert(
+      fc.property(fc.uint8Array({ maxLength: 80 }), fc.constantFrom('csv', 'json'), (bytes, ext) => {
+        const file = at(`fuzz.${ext}`);
+        fs.writeFileSync(file, bytes);
+        try {
+          readSamples([file]);
+        } catch (e) {
+          if (!isCairnError(e)) throw e;
+        }
+      }),
+      { seed: 5150, numRuns: 200 },
+    );
   });
 });
 
