@@ -1,0 +1,1 @@
+export function renderDocs(_: unknown): string { return ''; }
