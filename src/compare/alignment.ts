@@ -4,7 +4,7 @@
  */
 import { FitError, UsageError } from '../errors.js';
 import { precisionMatrix } from '../geometry/covariance.js';
-import { addMatrices, multiply, trace, transpose } from '../geometry/linear-algebra.js';
+import { addMatrices, inverse, multiply, trace, transpose } from '../geometry/linear-algebra.js';
 import { fitRigid, type FitOptions, type FitResult } from '../geometry/procrustes.js';
 import { applyToPoint } from '../geometry/transform.js';
 import type { Matrix, Points, Transform } from '../types.js';
@@ -242,4 +242,96 @@ export function fitSymmetricSimilarity(source: Points, target: Points, options: 
       return acc + w[i] * q.reduce((a2, v, j) => a2 + (target[i][j] - v) ** 2, 0);
     }, 0) / total;
   return { transform, rotation: rigid.rotation, scale, translation, meanSquaredResidual: msr, reflected: rigid.reflected };
+}
+
+export interface LeaveOneOutAlignment {
+  /** The alignment refitted with cell `index` given weight 0 (the robust weights of the others kept). */
+  readonly transform: Transform;
+  /** Covariance (d x d, target frame) of the refitted transform's prediction T(b_index), from the other cells' noise. */
+  readonly predictionCovariance: number[][];
+}
+
+/**
+ * Leave-one-out alignment for one cell, and the uncertainty it carries.
+ *
+ * The final weights w_j = pi_j omega_j of `result` are kept, except w_index = 0, and the
+ * fit is redone once (no reweighting), so the cell's own noise does not enter the
+ * transform that its displacement is measured with (no absorption of the cell's own
+ * displacement). The prediction's covariance is the sandwich covariance of the weighted
+ * least-squares fit, linearized at the fitted transform (Gauss-Newton; Seber & Wild 1989,
+ * Nonlinear Regression, section 2.1; White 1980 for the sandwich form):
+ *
+ *   y_j = (a_j + T(b_j)) / 2 (midpoints: they correspond under T in both frames, so swapping
+ *         A and B gives the same test),  ybar = weighted mean of y_j,
+ *   J_j = [ -[y_j - ybar]_x , (y_j - ybar), I ]   (3-D: rotation omega, log-scale, translation;
+ *          2-D: [ R90 (y_j - ybar), (y_j - ybar), I ]; the scale column is dropped for rigid fits),
+ *   M = sum_j w_j J_j^T J_j,  B = sum_j w_j^2 J_j^T V_j J_j,  Cov(theta) = M^-1 B M^-1,
+ *   Cov(T(b_i)) = J_i Cov(theta) J_i^T,
+ *
+ * with V_j = Cov(a_j) + A Cov(b_j) A^T the residual covariance of cell j.
+ *
+ * @throws FitError when fewer than d + 1 other cells keep positive weight.
+ */
+export function leaveOneOutAlignment(input: AlignmentInput, result: RobustAlignmentResult, index: number): LeaveOneOutAlignment {
+  const { source, target, sourceCovariances, targetCovariances } = input;
+  const k = source.length;
+  const d = source[0].length;
+  if (!Number.isInteger(index) || index < 0 || index >= k) throw new UsageError(`leaveOneOutAlignment: index ${index} is outside 0..${k - 1}`);
+  const w = result.precisionWeights.map((p, j) => (j === index ? 0 : p * result.robustWeights[j]));
+  const kept = w.filter((x) => x > 0).length;
+  if (kept < d + 1) throw new FitError(`leave-one-out alignment keeps only ${kept} cells with positive weight (need ${d + 1})`);
+  const fit =
+    result.robustWeights[index] === 0 ? result.fit : (result.kind === 'rigid' ? fitRigid : fitSymmetricSimilarity)(source, target, { weights: w });
+  const t = fit.transform;
+  // Linearize at the midpoints m_j = (a_j + T(b_j)) / 2: they correspond exactly under T in
+  // both frames, which keeps the result symmetric when A and B are swapped.
+  const y = source.map((b, j) => applyToPoint(t, b).map((v, c) => 0.5 * (v + target[j][c])));
+  const total = w.reduce((acc, x) => acc + x, 0);
+  const ybar = Array.from({ length: d }, (_, c) => y.reduce((acc, p, j) => acc + w[j] * p[c], 0) / total);
+  const withScale = result.kind !== 'rigid';
+  const jacobian = (p: readonly number[]): number[][] => {
+    const q = p.map((v, c) => v - ybar[c]);
+    const rows: number[][] = [];
+    for (let r = 0; r < d; r++) {
+      const row: number[] = [];
+      if (d === 3) {
+        // -[q]_x: the derivative of omega x q with respect to omega
+        const cross = [
+          [0, q[2], -q[1]],
+          [-q[2], 0, q[0]],
+          [q[1], -q[0], 0],
+        ];
+        row.push(...cross[r]);
+      } else {
+        row.push(r === 0 ? -q[1] : q[0]);
+      }
+      if (withScale) row.push(q[r]);
+      for (let c = 0; c < d; c++) row.push(r === c ? 1 : 0);
+      rows.push(row);
+    }
+    return rows;
+  };
+  const nParams = (d === 3 ? 3 : 1) + (withScale ? 1 : 0) + d;
+  let m = Array.from({ length: nParams }, () => new Array<number>(nParams).fill(0));
+  let bread = Array.from({ length: nParams }, () => new Array<number>(nParams).fill(0));
+  for (let j = 0; j < k; j++) {
+    if (w[j] === 0) continue;
+    const jj = jacobian(y[j]);
+    const jt = transpose(jj);
+    const vj = addMatrices(targetCovariances[j], multiply(multiply(t.linear, sourceCovariances[j]), transpose(t.linear)));
+    m = addMatrices(m, multiply(jt, jj).map((row) => row.map((x) => w[j] * x)));
+    bread = addMatrices(bread, multiply(multiply(jt, vj), jj).map((row) => row.map((x) => w[j] * w[j] * x)));
+  }
+  let mInv: number[][];
+  try {
+    mInv = inverse(m);
+  } catch {
+    throw new FitError('leave-one-out alignment: the remaining cells do not determine the transform');
+  }
+  const cov = multiply(multiply(mInv, bread), mInv);
+  const ji = jacobian(y[index]);
+  const predictionCovariance = multiply(multiply(ji, cov), transpose(ji));
+  // symmetrize against rounding
+  const sym = predictionCovariance.map((row, r) => row.map((x, c) => 0.5 * (x + predictionCovariance[c][r])));
+  return { transform: t, predictionCovariance: sym };
 }

@@ -9,7 +9,7 @@ import { applyToPoint, transformScale } from '../geometry/transform.js';
 import type { Rng } from '../random.js';
 import { benjaminiHochberg } from '../stats/multiple-testing.js';
 import type { Matrix, Template, TemplateCell, Transform } from '../types.js';
-import { fitRobustAlignment, transformCovariance } from './alignment.js';
+import { fitRobustAlignment, leaveOneOutAlignment, transformCovariance } from './alignment.js';
 import { hotellingTwoSample, type HotellingForm } from './hotelling.js';
 import { lengthConfidenceInterval } from './length-interval.js';
 import { permutationShapeTest, type AnimalPositions, type PermutationTestResult } from './permutation.js';
@@ -37,6 +37,12 @@ export interface CompareOptions {
   readonly permutations?: number;
   /** Required when permutations > 0 and both templates keep members' positions. */
   readonly rng?: Rng;
+  /**
+   * true (default): measure each cell with the alignment refitted without it and add the
+   * alignment's prediction covariance to the test (leaveOneOutAlignment); false: one
+   * alignment for all cells, treated as exact.
+   */
+  readonly alignmentUncertainty?: boolean;
 }
 
 export interface CellComparison {
@@ -65,6 +71,10 @@ export interface CellComparison {
   readonly qValue: number;
   /** Robust weight the cell got in the alignment (0 = treated as displaced, ignored). */
   readonly alignmentWeight: number;
+  /** The B-to-A transform this cell was measured with (the alignment refitted without it). */
+  readonly transform: Transform;
+  /** Covariance (um^2, A's frame) that the alignment's uncertainty adds to the test; zeros when not used. */
+  readonly alignmentCovariance: number[][];
   readonly sparse: boolean;
 }
 
@@ -125,7 +135,9 @@ export function sampleCovarianceFromSums(cell: TemplateCell): number[][] {
  *
  * 1. Align B's frame to A's on the shared cells (fitRobustAlignment: precision-
  *    weighted, iteratively reweighted similarity or rigid fit; displaced cells get
- *    zero weight). The alignment is treated as fixed in the tests below.
+ *    zero weight). Each cell is then measured with the alignment refitted without
+ *    it, and the refit's prediction covariance is added to the test's covariance
+ *    (leaveOneOutAlignment), unless `alignmentUncertainty` is false.
  * 2. Per shared cell: displacement meanB' - meanA in A's frame (B's mean and
  *    covariance mapped by the fitted transform: x -> cRx + t, S -> c^2 R S R^T), its
  *    length with a confidence interval (projection of Hotelling's confidence
@@ -163,24 +175,35 @@ export function compareTemplates(a: Template, b: Template, options: CompareOptio
 
   // The alignment uses every shared cell, with the template covariances (always positive definite).
   const meanCov = (cell: TemplateCell): number[][] => scaleMatrix(cell.covariance, 1 / Math.max(1, cell.count));
-  const alignment = fitRobustAlignment(
-    {
-      source: shared.map((l) => cellsB.get(l)!.mean),
-      target: shared.map((l) => cellsA.get(l)!.mean),
-      sourceCovariances: shared.map((l) => meanCov(cellsB.get(l)!)),
-      targetCovariances: shared.map((l) => meanCov(cellsA.get(l)!)),
-    },
-    { kind: options.scale === false ? 'rigid' : 'similarity' },
-  );
+  const alignmentInput = {
+    source: shared.map((l) => cellsB.get(l)!.mean),
+    target: shared.map((l) => cellsA.get(l)!.mean),
+    sourceCovariances: shared.map((l) => meanCov(cellsB.get(l)!)),
+    targetCovariances: shared.map((l) => meanCov(cellsA.get(l)!)),
+  };
+  const alignment = fitRobustAlignment(alignmentInput, { kind: options.scale === false ? 'rigid' : 'similarity' });
   const t = alignment.transform;
+  const withUncertainty = options.alignmentUncertainty ?? true;
 
   const tested: Omit<CellComparison, 'qValue'>[] = [];
   const untested: UntestedCell[] = [];
   shared.forEach((label, index) => {
     const ca = cellsA.get(label)!;
     const cb = cellsB.get(label)!;
+    let cellTransform = t;
+    let alignmentCovariance: number[][] | undefined;
+    if (withUncertainty) {
+      try {
+        const loo = leaveOneOutAlignment(alignmentInput, alignment, index);
+        cellTransform = loo.transform;
+        alignmentCovariance = loo.predictionCovariance;
+      } catch (e) {
+        if (!(e instanceof FitError)) throw e;
+        // too few other cells: keep the joint fit, without its uncertainty
+      }
+    }
     const meanA = ca.mean.slice();
-    const meanB = applyToPoint(t, cb.mean);
+    const meanB = applyToPoint(cellTransform, cb.mean);
     const displacement = meanB.map((v, j) => v - meanA[j]);
     if (ca.count < 2 || cb.count < 2) {
       untested.push({ label, countA: ca.count, countB: cb.count, reason: `needs at least 2 observations in each template` });
@@ -199,11 +222,17 @@ export function compareTemplates(a: Template, b: Template, options: CompareOptio
       covA = ca.covariance;
       covBOwn = cb.covariance;
     }
-    const covB = transformCovariance(t.linear, covBOwn);
+    const covB = transformCovariance(cellTransform.linear, covBOwn);
     let test;
     try {
       // Group 1 = B, group 2 = A, so the difference is meanB - meanA (the displacement).
-      test = hotellingTwoSample({ mean: meanB, covariance: covB, count: cb.count }, { mean: meanA, covariance: covA, count: ca.count }, form, level);
+      test = hotellingTwoSample(
+        { mean: meanB, covariance: covB, count: cb.count },
+        { mean: meanA, covariance: covA, count: ca.count },
+        form,
+        level,
+        alignmentCovariance,
+      );
     } catch (e) {
       if (e instanceof FitError) {
         untested.push({ label, countA: ca.count, countB: cb.count, reason: e.message });
@@ -229,6 +258,8 @@ export function compareTemplates(a: Template, b: Template, options: CompareOptio
       df2: test.df2,
       pValue: test.pValue,
       alignmentWeight: alignment.robustWeights[index],
+      transform: cellTransform,
+      alignmentCovariance: alignmentCovariance ?? meanA.map(() => meanA.map(() => 0)),
       sparse: ca.sparse || cb.sparse,
     });
   });

@@ -24,6 +24,12 @@
  *
  * Shapes: means length p, covariances p x p symmetric positive definite
  * (sample covariances with divisor n - 1), counts >= 2.
+ *
+ * An optional `known` covariance K (p x p, positive semi-definite) is added to the
+ * covariance of the difference, W -> W + K, for uncertainty from elsewhere that is
+ * estimated with many degrees of freedom (here: the alignment of the two frames). It
+ * enters T^2 and the matrices V_i W^-1 of nu, but adds no term of its own to nu's
+ * denominator (treated as known, as in Satterthwaite 1946 for a term with infinite df).
  */
 import { FitError, UsageError } from '../errors.js';
 import { multiply, scaleMatrix, addMatrices, trace } from '../geometry/linear-algebra.js';
@@ -44,7 +50,7 @@ export interface HotellingResult {
   readonly form: HotellingForm;
   /** d = mean_1 - mean_2. */
   readonly difference: number[];
-  /** Estimated covariance W of d: V_1 + V_2 (unequal) or S_p (1/n_1 + 1/n_2) (pooled). T^2 = d^T W^-1 d. */
+  /** Estimated covariance W of d: V_1 + V_2 (unequal) or S_p (1/n_1 + 1/n_2) (pooled), plus `known`. T^2 = d^T W^-1 d. */
   readonly differenceCovariance: number[][];
   readonly tSquared: number;
   /** F = factor * T^2. */
@@ -77,11 +83,18 @@ function checkGroup(name: string, g: GroupSummary, p: number): void {
  * @param a, b  group summaries (same dimension p)
  * @param form  'unequal' (Krishnamoorthy & Yu 2004) or 'pooled' (Hotelling 1931)
  * @param level confidence level for `criticalTSquared`, in (0, 1); default 0.95
+ * @param known optional known covariance added to the covariance of the difference
  * @throws FitError when a count is below 2, a covariance is not positive
  *   definite, or the denominator degrees of freedom are not positive;
  *   UsageError for mismatched shapes or a bad level.
  */
-export function hotellingTwoSample(a: GroupSummary, b: GroupSummary, form: HotellingForm = 'unequal', level = 0.95): HotellingResult {
+export function hotellingTwoSample(
+  a: GroupSummary,
+  b: GroupSummary,
+  form: HotellingForm = 'unequal',
+  level = 0.95,
+  known?: Matrix,
+): HotellingResult {
   const p = a.mean.length;
   if (p < 1) throw new UsageError('hotellingTwoSample: empty mean vector');
   if (!(level > 0 && level < 1)) throw new UsageError(`hotellingTwoSample: level must lie in (0, 1), got ${level}`);
@@ -90,6 +103,10 @@ export function hotellingTwoSample(a: GroupSummary, b: GroupSummary, form: Hotel
   const n1 = a.count;
   const n2 = b.count;
   const d = a.mean.map((v, i) => v - b.mean[i]);
+  if (known && (known.length !== p || known.some((row) => row.length !== p))) {
+    throw new UsageError(`hotellingTwoSample: known covariance is not ${p}x${p}`);
+  }
+  const addKnown = (m: number[][]): number[][] => (known ? addMatrices(m, known) : m);
   let w: number[][];
   let factor: number;
   let df2: number;
@@ -98,13 +115,13 @@ export function hotellingTwoSample(a: GroupSummary, b: GroupSummary, form: Hotel
     df2 = n1 + n2 - p - 1;
     if (df2 <= 0) throw new FitError(`hotellingTwoSample (pooled): n1 + n2 - p - 1 = ${df2}, needs to be positive`);
     const sp = scaleMatrix(addMatrices(scaleMatrix(a.covariance, n1 - 1), scaleMatrix(b.covariance, n2 - 1)), 1 / (n1 + n2 - 2));
-    w = scaleMatrix(sp, 1 / n1 + 1 / n2);
+    w = addKnown(scaleMatrix(sp, 1 / n1 + 1 / n2));
     nu = n1 + n2 - 2;
     factor = df2 / (nu * p);
   } else if (form === 'unequal') {
     const v1 = scaleMatrix(a.covariance, 1 / n1);
     const v2 = scaleMatrix(b.covariance, 1 / n2);
-    w = addMatrices(v1, v2);
+    w = addKnown(addMatrices(v1, v2));
     const wInv = precisionOrThrow(w);
     const a1 = multiply(v1, wInv);
     const a2 = multiply(v2, wInv);

@@ -10,15 +10,28 @@
 import { simulatePower } from '../compare/power.js';
 
 const replicates = Number(process.argv[2] ?? 200);
-const rows: string[] = ['form\tcovariance\tanimals\tdisplacement_um\treplicates\tpower\tfdr\tfwer\tnull_p<0.05\tnull_mean_p\tdisplaced_excluded'];
-const settings: { form: 'unequal' | 'pooled'; covariance: 'template' | 'sample'; animals: number; displacement: number }[] = [
-  { form: 'unequal', covariance: 'template', animals: 20, displacement: 2 },
-  { form: 'unequal', covariance: 'sample', animals: 20, displacement: 2 },
-  { form: 'pooled', covariance: 'template', animals: 20, displacement: 2 },
-  { form: 'unequal', covariance: 'template', animals: 20, displacement: 0 },
-  { form: 'unequal', covariance: 'template', animals: 10, displacement: 2 },
-  { form: 'unequal', covariance: 'template', animals: 40, displacement: 2 },
-  { form: 'unequal', covariance: 'template', animals: 20, displacement: 4 },
+const rows: string[] = [
+  'form\tcovariance\talignment_uncertainty\tanimals\tdisplacement_um\treplicates\tpower\tfdr\tfwer\tnull_p<0.05\tnull_mean_p\tdisplaced_excluded',
+];
+interface Setting {
+  form: 'unequal' | 'pooled';
+  covariance: 'template' | 'sample';
+  alignmentUncertainty: boolean;
+  animals: number;
+  displacement: number;
+}
+const defaults: Setting = { form: 'unequal', covariance: 'template', alignmentUncertainty: true, animals: 20, displacement: 2 };
+const settings: Setting[] = [
+  defaults,
+  { ...defaults, covariance: 'sample' },
+  { ...defaults, form: 'pooled' },
+  { ...defaults, alignmentUncertainty: false },
+  { ...defaults, covariance: 'sample', alignmentUncertainty: false },
+  { ...defaults, displacement: 0 },
+  { ...defaults, covariance: 'sample', displacement: 0 },
+  { ...defaults, animals: 10 },
+  { ...defaults, animals: 40 },
+  { ...defaults, displacement: 4 },
 ];
 for (const s of settings) {
   const r = simulatePower({
@@ -30,11 +43,11 @@ for (const s of settings) {
     sd: [2.5, 1.75, 1],
     alpha: 0.05,
     seed: 20261201,
-    options: { form: s.form, covariance: s.covariance },
+    options: { form: s.form, covariance: s.covariance, alignmentUncertainty: s.alignmentUncertainty },
   });
   const f = (x: number): string => (Number.isFinite(x) ? x.toFixed(3) : 'NA');
   rows.push(
-    [s.form, s.covariance, s.animals, s.displacement, replicates, f(r.power), f(r.fdr), f(r.familywiseError), f(r.nullRejectionAt05), f(r.nullMeanP), f(r.displacedExcludedFraction)].join('\t'),
+    [s.form, s.covariance, s.alignmentUncertainty, s.animals, s.displacement, replicates, f(r.power), f(r.fdr), f(r.familywiseError), f(r.nullRejectionAt05), f(r.nullMeanP), f(r.displacedExcludedFraction)].join('\t'),
   );
   process.stdout.write(rows[rows.length - 1] + '\n');
 }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { fitRobustAlignment, fitSymmetricSimilarity } from '../../src/compare/alignment.js';
+import { fitRobustAlignment, fitSymmetricSimilarity, leaveOneOutAlignment } from '../../src/compare/alignment.js';
 import { fitSimilarity } from '../../src/geometry/procrustes.js';
 import { applyToPoint, invertTransform } from '../../src/geometry/transform.js';
 import { createRng, randomNormal, randomRotation } from '../../src/random.js';
@@ -104,5 +104,49 @@ describe('fitRobustAlignment with several cells displaced the same way', () => {
       // while the plain fit on all 30 cells is dragged further
       expect(worstError(fitSymmetricSimilarity(input.source, input.target).transform, truth, input.source)).toBeGreaterThan(robustError);
     }
+  });
+});
+
+describe('leaveOneOutAlignment', () => {
+  it('gives a prediction covariance that matches the spread of refits over simulated noise (3-D similarity, within 25%)', () => {
+    // Monte Carlo check of the sandwich formula: 300 noisy copies fitted with the same weights
+    // (all 1, the cell left out); the spread of the cell's predicted position against the formula.
+    const rng = createRng(99);
+    const base = Array.from({ length: 20 }, () => [(rng() - 0.5) * 200, (rng() - 0.5) * 80, (rng() - 0.5) * 60]);
+    const cov = base.map(() => iso(0.25));
+    const zero = base.map(() => iso(0));
+    const index = 3;
+    const weights = base.map((_, j) => (j === index ? 0 : 1));
+    const predictions: number[][] = [];
+    for (let rep = 0; rep < 300; rep++) {
+      const target = base.map((p) => p.map((v) => v + 0.5 * randomNormal(rng)));
+      predictions.push(applyToPoint(fitSymmetricSimilarity(base, target, { weights }).transform, base[index]));
+    }
+    const exact = fitSymmetricSimilarity(base, base);
+    const result = {
+      kind: 'similarity' as const,
+      transform: exact.transform,
+      fit: exact,
+      precisionWeights: base.map(() => 1),
+      robustWeights: base.map(() => 1),
+      standardizedResiduals: base.map(() => 0),
+      residualScale: 1,
+      cutoff: 4,
+      iterations: 0,
+      converged: true,
+    };
+    const predicted = leaveOneOutAlignment({ source: base, target: base, sourceCovariances: zero, targetCovariances: cov }, result, index).predictionCovariance;
+    const mean = [0, 1, 2].map((j) => predictions.reduce((acc, p) => acc + p[j], 0) / predictions.length);
+    const trace = [0, 1, 2].reduce((acc, j) => acc + predictions.reduce((a2, p) => a2 + (p[j] - mean[j]) ** 2, 0) / (predictions.length - 1), 0);
+    const predictedTrace = predicted[0][0] + predicted[1][1] + predicted[2][2];
+    expect(predictedTrace / trace).toBeGreaterThan(0.75);
+    expect(predictedTrace / trace).toBeLessThan(1.25);
+  });
+  it('leaves the cell out: its own displacement does not move the transform', () => {
+    const { input } = scenario(30, 0, 0);
+    const moved = { ...input, target: input.target.map((p, i) => (i === 2 ? [p[0] + 1, p[1], p[2]] : p)) };
+    const a = leaveOneOutAlignment(input, fitRobustAlignment(input), 2);
+    const b = leaveOneOutAlignment(moved, fitRobustAlignment(moved), 2);
+    a.transform.translation.forEach((v, j) => expect(b.transform.translation[j]).toBeCloseTo(v, 2));
   });
 });
