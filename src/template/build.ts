@@ -10,7 +10,7 @@ import { TEMPLATE_FORMAT, TEMPLATE_VERSION } from '../types.js';
 import { VERSION } from '../version.js';
 import { addObservationInPlace, cellsFromSums, emptySums, type CellSums } from './cell-statistics.js';
 import { coRegister, type CoRegistration, type IterationDiagnostics, type LabelledEntry, type SkippedSample } from './co-register.js';
-import { likelierCell } from './hand-labels.js';
+import { likelierCell } from './likelier-cell.js';
 import { sampleHash } from './sample-hash.js';
 import { resolveSettings, type BuildOptions } from './settings.js';
 

@@ -60,7 +60,7 @@
  *    and the weights did not change, or after `maxIterations`.
  *
  * Entries are processed in content-hash order, so the result does not depend on
- * the order of the input (up to nothing: the arithmetic is the same).
+ * the order of the input: the same arithmetic runs in the same order.
  */
 import { FitError, UsageError } from '../errors.js';
 import {
@@ -143,7 +143,7 @@ function byCodeUnit(a: string, b: string): number {
 
 /** Run the co-registration; see the module comment. Throws FitError when fewer than 2 samples can be aligned. */
 export function coRegister(input: readonly LabelledEntry[], settings: TemplateSettings): CoRegistration {
-  if (input.length === 0) throw new UsageError('coRegister: no samples given');
+  if (input.length === 0) throw new UsageError('no samples given to build a template from');
   const dim = input[0].dim;
   for (const e of input) {
     if (e.dim !== dim) throw new UsageError(`samples mix dimensions: ${input[0].id} is ${dim}-D but ${e.id} is ${e.dim}-D`);

@@ -23,13 +23,13 @@
  * sample is new and no refit is asked for, the very template object given is
  * returned.
  */
-import { FitError } from '../errors.js';
+import { FitError, InputError } from '../errors.js';
 import { applyTransform, mahalanobisSquared, precisionMatrix } from '../geometry/index.js';
 import type { FlaggedLabel, Sample, Template, TemplateMember, Transform } from '../types.js';
 import { assembleTemplate, entryFromMember, entryFromSample, registerAndSummarise } from './build.js';
 import { addObservationInPlace, cellsFromSums, emptySums, predictiveCovariance, predictiveCutoff, type CellSums } from './cell-statistics.js';
 import { fitMemberMap, minAlignmentPoints, type LabelledEntry, type SkippedSample } from './co-register.js';
-import { likelierCell } from './hand-labels.js';
+import { likelierCell } from './likelier-cell.js';
 import { resolveSettings, type BuildOptions } from './settings.js';
 
 export interface AddOptions extends BuildOptions {
@@ -54,9 +54,9 @@ function byCodeUnit(a: string, b: string): number {
 
 /**
  * Fold new labelled samples into a template (module comment). Options other
- * than `refit` override the template's recorded settings. Throws UsageError
- * when a sample's dimension differs from the template's; FitError from a refit
- * that cannot align two samples.
+ * than `refit` override the template's recorded settings. Throws InputError
+ * (naming the sample's file) when a sample's dimension differs from the
+ * template's; FitError from a refit that cannot align two samples.
  */
 export function addToTemplate(template: Template, samples: readonly Sample[], options: AddOptions = {}): AddResult {
   const { refit, ...rest } = options;
@@ -69,7 +69,7 @@ export function addToTemplate(template: Template, samples: readonly Sample[], op
   const seen = new Map<string, string>();
   for (const s of samples) {
     if (s.dim !== template.dim) {
-      throw new FitError(`sample ${s.id} is ${s.dim}-D but the template is ${template.dim}-D`);
+      throw new InputError({ file: s.source }, `sample ${s.id} is ${s.dim}-D but the template is ${template.dim}-D`);
     }
     const e = entryFromSample(s);
     if (memberHash.has(e.hash)) {
