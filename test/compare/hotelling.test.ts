@@ -87,6 +87,16 @@ describe('hotellingTwoSample', () => {
       expect(fSurvival(factor * r.criticalTSquared, r.df1, r.df2)).toBeCloseTo(0.1, 10);
     }
   });
+  it('adds a known covariance K to W: T^2 = d^T (V1 + V2 + K)^-1 d, and K = 0 changes nothing', () => {
+    const plain = hotellingTwoSample(g1, g2);
+    const zero = hotellingTwoSample(g1, g2, 'unequal', 0.95, [[0, 0, 0], [0, 0, 0], [0, 0, 0]]);
+    expect(zero.tSquared).toBe(plain.tSquared);
+    expect(zero.pValue).toBe(plain.pValue);
+    // K = W itself halves T^2 (W -> 2 W)
+    const doubled = hotellingTwoSample(g1, g2, 'unequal', 0.95, plain.differenceCovariance);
+    expect(doubled.tSquared).toBeCloseTo(plain.tSquared / 2, 12);
+    expect(doubled.pValue).toBeGreaterThan(plain.pValue);
+  });
   it('rejects a group with fewer than 2 observations', () => {
     expect(() => hotellingTwoSample(g1, { ...g2, count: 1 })).toThrow(new FitError('hotellingTwoSample: second group needs at least 2 observations, got 1'));
   });
