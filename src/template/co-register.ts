@@ -69,10 +69,9 @@ import {
   fitTransform,
   identityTransform,
   invertTransform,
+  transformScale,
   inverse,
-  mahalanobisSquared,
   multiply,
-  precisionMatrix,
   symmetricEigen,
   transpose,
   zeros,
@@ -213,7 +212,7 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
     // 3. Consensus.
     let next = consensusOf(aligned, cellOf, kept, k, dim);
     // 4. Frame.
-    frame = frameMap(next, entries, cellOf, kept, transforms, kind);
+    frame = frameMap(next, entries, cellOf, kept, transforms, kind, direction === 'template-to-sample');
     next = applyTransform(frame, next);
     transforms = transforms.map((t) => composeTransforms(frame, t));
     aligned = entries.map((e, i) => applyTransform(transforms[i], e.coords));
@@ -371,7 +370,7 @@ function alignOne(
   let { src, dst } = pick(false);
   if (src.length < minPoints) ({ src, dst } = pick(true));
   try {
-    return fitMemberMap(kind, src, dst, direction);
+    return fitMemberMap(kind, src, dst, direction, false);
   } catch (err) {
     if (!(err instanceof FitError)) throw err;
     return previous;
@@ -389,10 +388,12 @@ export function fitMemberMap(
   own: Points,
   template: Points,
   direction: 'template-to-sample' | 'sample-to-template',
+  checkOwn = true,
 ): Transform {
   if (direction === 'sample-to-template') return fitTransform(kind, own, template).transform;
-  // Degeneracy is judged on the member's own points too.
-  fitTransform(kind, own, template);
+  // Degeneracy is judged on the member's own points too (skipped inside the loop, where the
+  // member's points already passed this check when it joined).
+  if (checkOwn) fitTransform(kind, own, template);
   return invertTransform(fitTransform(kind, template, own).transform);
 }
 
@@ -420,8 +421,17 @@ function frameMap(
   kept: readonly (readonly boolean[])[],
   transforms: readonly Transform[],
   kind: TemplateSettings['alignment'],
+  transformsFitTemplateToSample = false,
 ): Transform {
   if (kind === 'rigid') return canonicalFrame(consensus, 1);
+  if (kind === 'similarity' && transformsFitTemplateToSample) {
+    // The members' maps are inverses of template -> sample fits made against the consensus
+    // of this iteration's alignment step: c'_i = 1 / scale(T_i). At the fixed point the
+    // consensus no longer moves, so the rule below holds there exactly.
+    let total = 0;
+    for (const t of transforms) total += 1 / transformScale(t);
+    return canonicalFrame(consensus, total / transforms.length);
+  }
   if (kind === 'similarity') {
     // Size: s = mean_i c'_i, c'_i the scale of the least-squares similarity taking the consensus
     // (its cells kept for sample i) onto sample i's own points.
@@ -492,6 +502,9 @@ export function robustWeights(
   const r = new Array<number>(dim);
   const cov = zeros(dim, dim);
   const m1 = new Array<number>(dim);
+  const z = new Array<number>(dim);
+  const cutoffs: number[] = [];
+  const cutoffAt = (k: number) => (cutoffs[k] ??= cutoff(k));
   for (let i = 0; i < aligned.length; i++) {
     const rowKept: boolean[] = [], rowDist: number[] = [];
     for (let j = 0; j < aligned[i].length; j++) {
@@ -517,14 +530,42 @@ export function robustWeights(
       const denom = priorStrength + n1 - 1;
       const infl = 1 + 1 / n1;
       for (let a = 0; a < dim; a++)
-        for (let b = 0; b < dim; b++) cov[a][b] = (infl * (priorStrength * pooled[a][b] + scatter[c][a][b] - f * r[a] * r[b])) / denom;
-      for (let a = 0; a < dim; a++) for (let b = 0; b < a; b++) cov[a][b] = cov[b][a];
-      const d2 = mahalanobisSquared(y, m1, precisionMatrix(cov));
-      rowKept.push(d2 <= cutoff(n1));
+        for (let b = 0; b <= a; b++) cov[a][b] = (infl * (priorStrength * pooled[a][b] + scatter[c][a][b] - f * r[a] * r[b])) / denom;
+      for (let a = 0; a < dim; a++) r[a] = y[a] - m1[a];
+      const d2 = choleskyQuadraticForm(cov, r, dim, z);
+      rowKept.push(d2 <= cutoffAt(n1));
       rowDist.push(Math.sqrt(d2));
     }
     outKept.push(rowKept);
     outDist.push(rowDist);
   }
   return { kept: outKept, distance: outDist };
+}
+
+/**
+ * r^T C^-1 r for a symmetric positive definite C given by its lower triangle
+ * (upper triangle ignored), d <= 3, by the Cholesky factor C = L L^T without
+ * allocating: z = L^-1 r, result |z|^2 (Golub & Van Loan, Matrix Computations,
+ * Algorithm 4.2.1). Throws FitError when C is not positive definite. `z` is
+ * scratch space of length d.
+ */
+function choleskyQuadraticForm(c: number[][], r: readonly number[], d: number, z: number[]): number {
+  // d <= 3: factor into a local lower-triangular array.
+  const l00 = c[0][0];
+  if (!(l00 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 0 is ${l00})`);
+  const L00 = Math.sqrt(l00);
+  z[0] = r[0] / L00;
+  if (d === 1) return z[0] * z[0];
+  const L10 = c[1][0] / L00;
+  const p1 = c[1][1] - L10 * L10;
+  if (!(p1 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 1 is ${p1})`);
+  const L11 = Math.sqrt(p1);
+  z[1] = (r[1] - L10 * z[0]) / L11;
+  if (d === 2) return z[0] * z[0] + z[1] * z[1];
+  const L20 = c[2][0] / L00;
+  const L21 = (c[2][1] - L20 * L10) / L11;
+  const p2 = c[2][2] - L20 * L20 - L21 * L21;
+  if (!(p2 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 2 is ${p2})`);
+  z[2] = (r[2] - L20 * z[0] - L21 * z[1]) / Math.sqrt(p2);
+  return z[0] * z[0] + z[1] * z[1] + z[2] * z[2];
 }
