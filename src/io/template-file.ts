@@ -34,6 +34,8 @@ const ALIGNMENTS = ['similarity', 'rigid', 'affine'] as const;
 const OPTIONAL_SETTINGS_KEYS = ['memberFit', 'flagReference'] as const;
 const MEMBER_FITS = ['template-to-sample', 'sample-to-template'] as const;
 const FLAG_REFERENCES = ['student-t', 'chi-square'] as const;
+/** RFC 3339 date-time, as Date.prototype.toISOString writes it (offsets allowed). */
+const ISO_DATE_TIME = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}(\.\d+)?(Z|[+-]\d{2}:\d{2})$/;
 
 // ---------------------------------------------------------------- writing
 
@@ -278,7 +280,7 @@ export function parseTemplate(text: string, file: string): Template {
   let created: string | undefined;
   if (top.created !== undefined) {
     created = check.string(top.created, 'created');
-    if (created !== undefined && Number.isNaN(Date.parse(created))) {
+    if (created !== undefined && (!ISO_DATE_TIME.test(created) || Number.isNaN(Date.parse(created)))) {
       check.fail('created', `${JSON.stringify(created)} is not an ISO date and time`);
     }
   }

@@ -221,6 +221,7 @@ describe('parseTemplate', () => {
     ['a flag probability above 1', (j) => (j.settings.flagProbability = 2), 't.json: column "settings.flagProbability": must be at most 1, got 2'],
     ['a flagged row of 0', (j) => (j.flagged[0].row = 0), 't.json: column "flagged[0].row": must be at least 1, got 0'],
     ['a creation time that is not a date', (j) => (j.created = 'yesterday'), 't.json: column "created": "yesterday" is not an ISO date and time'],
+    ['a creation time without time of day', (j) => (j.created = '2026-12-01'), 't.json: column "created": "2026-12-01" is not an ISO date and time'],
     ['another tool name', (j) => (j.tool.name = 'other'), 't.json: column "tool.name": must be one of "cairn", got "other"'],
     ['an empty object', (j) => { for (const k of Object.keys(j)) delete j[k]; }, 't.json: column "format": expected "cairn-template", got nothing; this is not a cairn template file'],
   ];
