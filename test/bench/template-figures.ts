@@ -11,6 +11,7 @@
  *    (1 + 1/n) Sigma and by Sigma alone, at nominal 95% and 99%.
  * 4. Build time for 200 samples x 150 cells in 3-D.
  */
+import { cpus, loadavg } from 'node:os';
 import { applyTransform, fitRigid, fitSimilarity, gaussianLogDensity, mahalanobisSquared, precisionMatrix } from '../../src/geometry/index.js';
 import { createRng } from '../../src/random.js';
 import { buildTemplate, chiSquareQuantile, predictiveCovariance } from '../../src/template/index.js';
@@ -176,15 +177,18 @@ console.log('\n4. build time, 200 samples x 150 cells, 3-D (60% labelled, 15% mi
   const samples: Sample[] = Array.from({ length: 200 }, (_, i) => generateAnimal(layout, rng, `a${i}`, { ...animalDefaults, wrongLabelFraction: 0.01 }).sample);
   buildTemplate(samples.slice(0, 20)); // warm up the JIT
   const runs = quick ? 1 : 3;
-  const times: number[] = [];
+  const times: number[] = [], cpu: number[] = [];
   let last = buildTemplate(samples.slice(0, 2));
   for (let r = 0; r < runs; r++) {
     const t0 = process.hrtime.bigint();
+    const c0 = process.cpuUsage();
     last = buildTemplate(samples);
+    const c1 = process.cpuUsage(c0);
     times.push(Number(process.hrtime.bigint() - t0) / 1e6);
+    cpu.push((c1.user + c1.system) / 1e3);
   }
   const obs = last.template.cells.reduce((s, c) => s + c.count, 0);
   console.log(`   ${times.map((t) => (t / 1000).toFixed(2)).join(' s, ')} s (${runs} run${runs === 1 ? '' : 's'}); ${last.iterations.length} iterations, converged ${last.converged}, ${obs} kept observations, ${last.flagged.length} flagged`);
-  console.log(`   node ${process.version}, single thread`);
+  console.log(`   CPU time ${cpu.map((t) => (t / 1000).toFixed(2)).join(' s, ')} s; node ${process.version}, single thread; load average ${loadavg()[0].toFixed(1)} on ${cpus().length} CPUs`);
 }
 }
