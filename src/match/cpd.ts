@@ -56,6 +56,14 @@ export interface CpdOptions {
   readonly rng?: Rng;
   /** Starting orientations (default 24 with an rng; without one, the deterministic starts: 3 in 2-D, 5 in 3-D). */
   readonly starts?: number;
+  /**
+   * Screening: every start first runs this many EM iterations (default 25); only the
+   * `survivors` starts with the highest log-likelihood then run on to convergence.
+   * Set it to maxIterations to run every start to the end.
+   */
+  readonly screenIterations?: number;
+  /** Starts kept after screening (default 4). */
+  readonly survivors?: number;
   /** Return the final posterior matrix P (M x N) of the winning start (default false). */
   readonly keepPosterior?: boolean;
 }
@@ -83,10 +91,13 @@ export interface CpdResult {
  * Align `samplePoints` to `templateMeans` by multi-start CPD (rigid, similarity or affine).
  *
  * Shapes: templateMeans M x D, samplePoints N x D, D = 2 or 3, M >= D + 1,
- * N >= D + 1. Each start runs EM from a starting pose (principal axes, then
- * random rotations: see startingPoses in icp.ts) until the relative change of
- * the log-likelihood is at most `tolerance` or `maxIterations`; the start
- * with the highest final log-likelihood wins (ties: the earlier start).
+ * N >= D + 1. Each start runs EM from a starting pose (identity, principal
+ * axes, then random rotations: see startingPoses in icp.ts) for
+ * `screenIterations`; the `survivors` starts with the highest log-likelihood
+ * then continue until its relative change is at most `tolerance` or
+ * `maxIterations` in all; of those, the highest final log-likelihood wins
+ * (ties: the earlier start). Screening is cairn's shortcut to save time, not
+ * part of the paper.
  *
  * @throws UsageError for bad options, mismatched dimensions, non-finite coordinates.
  * @throws FitError for too few points or when every start degenerates.
@@ -103,6 +114,10 @@ export function alignCpd(templateMeans: Points, samplePoints: Points, options: C
   if (!(tolerance >= 0) || !Number.isFinite(tolerance)) throw new UsageError(`alignCpd: tolerance must be finite and >= 0, got ${tolerance}`);
   const starts = options.starts ?? (options.rng ? 24 : 1 + (1 << (d - 1)));
   checkCount('alignCpd', 'starts', starts, 1);
+  const screenIterations = options.screenIterations ?? 25;
+  checkCount('alignCpd', 'screenIterations', screenIterations, 1);
+  const survivors = options.survivors ?? 4;
+  checkCount('alignCpd', 'survivors', survivors, 1);
   if (samplePoints.length < d + 1) throw new FitError(`alignCpd needs at least ${d + 1} sample points in ${d}-D, got ${samplePoints.length}`);
 
   // Normalise: centre each set on its centroid, divide both by the template's RMS radius.
@@ -121,7 +136,7 @@ export function alignCpd(templateMeans: Points, samplePoints: Points, options: C
 
   const poseKind = kind === 'affine' ? 'similarity' : kind;
   const poses = startingPoses(templateMeans, samplePoints, poseKind, starts, options.rng);
-  let best: (EmRun & { start: number }) | null = null;
+  const screened: (EmRun & { start: number })[] = [];
   let failed = 0;
   for (let s = 0; s < poses.length; s++) {
     // Start pose sample -> template (x -> A0 x + t0) becomes template -> sample in normalised units:
@@ -134,9 +149,9 @@ export function alignCpd(templateMeans: Points, samplePoints: Points, options: C
       for (let j = 0; j < d; j++) v += B0[i][j] * my[j];
       t0[i] = v / L;
     }
-    let run: EmRun;
+    const initial: EmRun = { B: B0, t: t0, sigma2: NaN, logLikelihood: -Infinity, previous: -Infinity, iterations: 0, converged: false, P: new Float64Array(0) };
     try {
-      run = runEm(X, Y, N, M, d, kind, w, B0, t0, maxIterations, tolerance);
+      screened.push({ ...runEm(X, Y, N, M, d, kind, w, initial, Math.min(screenIterations, maxIterations), tolerance), start: s });
     } catch (e) {
       if (e instanceof FitError) {
         failed++;
@@ -144,7 +159,27 @@ export function alignCpd(templateMeans: Points, samplePoints: Points, options: C
       }
       throw e;
     }
-    if (best === null || run.logLikelihood > best.logLikelihood) best = { ...run, start: s };
+  }
+  if (screened.length === 0) throw new FitError(`alignCpd: every one of the ${poses.length} starts degenerated`);
+  // Keep the best `survivors` after screening (ties: earlier start) and run them on to convergence.
+  screened.sort((a, b) => b.logLikelihood - a.logLikelihood || a.start - b.start);
+  let best: (EmRun & { start: number }) | null = null;
+  for (const run of screened.slice(0, survivors)) {
+    let finished: EmRun = run;
+    if (!run.converged && run.iterations < maxIterations) {
+      try {
+        finished = runEm(X, Y, N, M, d, kind, w, run, maxIterations, tolerance);
+      } catch (e) {
+        if (e instanceof FitError) {
+          failed++;
+          continue;
+        }
+        throw e;
+      }
+    }
+    if (best === null || finished.logLikelihood > best.logLikelihood || (finished.logLikelihood === best.logLikelihood && run.start < best.start)) {
+      best = { ...finished, start: run.start };
+    }
   }
   if (best === null) throw new FitError(`alignCpd: every one of the ${poses.length} starts degenerated`);
 
@@ -173,12 +208,16 @@ export function alignCpd(templateMeans: Points, samplePoints: Points, options: C
   return result;
 }
 
+/** EM state; a run can be resumed from where it stopped (sigma2 NaN = not yet initialised). */
 interface EmRun {
   B: number[][];
   t: number[];
   sigma2: number;
   logLikelihood: number;
+  /** Log-likelihood at the previous E-step (for the stopping rule). */
+  previous: number;
   iterations: number;
+  converged: boolean;
   P: Float64Array;
 }
 
@@ -190,33 +229,36 @@ function runEm(
   D: number,
   kind: 'rigid' | 'similarity' | 'affine',
   w: number,
-  B0: number[][],
-  t0: number[],
+  state: EmRun,
   maxIterations: number,
   tolerance: number,
 ): EmRun {
-  let B = B0;
-  let t = t0;
+  let B = state.B;
+  let t = state.t;
   const TY = new Float64Array(M * D);
   transformCentroids(Y, M, D, B, t, TY);
-  // Initial sigma^2 = (1 / (D N M)) sum_n sum_m |x_n - T(y_m)|^2 (Figs. 2 and 3, initialisation).
-  let sigma2 = 0;
-  for (let n = 0; n < N; n++) {
-    for (let m = 0; m < M; m++) {
-      let s = 0;
-      for (let j = 0; j < D; j++) s += (X[n * D + j] - TY[m * D + j]) ** 2;
-      sigma2 += s;
+  let sigma2 = state.sigma2;
+  if (Number.isNaN(sigma2)) {
+    // Initial sigma^2 = (1 / (D N M)) sum_n sum_m |x_n - T(y_m)|^2 (Figs. 2 and 3, initialisation).
+    sigma2 = 0;
+    for (let n = 0; n < N; n++) {
+      for (let m = 0; m < M; m++) {
+        let s = 0;
+        for (let j = 0; j < D; j++) s += (X[n * D + j] - TY[m * D + j]) ** 2;
+        sigma2 += s;
+      }
     }
+    sigma2 /= D * N * M;
   }
-  sigma2 /= D * N * M;
 
   const P = new Float64Array(M * N);
   const P1 = new Float64Array(M);
   const Pt1 = new Float64Array(N);
   const d2 = new Float64Array(M);
-  let previous = -Infinity;
+  let previous = state.previous;
   let logLikelihood = -Infinity;
-  let iterations = 0;
+  let iterations = state.iterations;
+  let converged = false;
   for (;;) {
     // E-step (log-sum-exp stabilised).
     const c = Math.pow(2 * Math.PI * sigma2, D / 2) * (w / (1 - w)) * (M / N);
@@ -237,7 +279,9 @@ function runEm(
       }
       let sum = 0;
       for (let m = 0; m < M; m++) {
-        const e = Math.exp(minExp - d2[m]);
+        // Terms below e^-40 (4e-18) of the largest are set to zero: they are lost when added to the sum (>= 1) anyway.
+        const z = minExp - d2[m];
+        const e = z < -40 ? 0 : Math.exp(z);
         d2[m] = e;
         sum += e;
       }
@@ -259,7 +303,7 @@ function runEm(
       Pt1[n] = column;
     }
     if (!Number.isFinite(logLikelihood)) throw new FitError('alignCpd: the log-likelihood is not finite');
-    const converged = Number.isFinite(previous) && Math.abs(logLikelihood - previous) <= tolerance * Math.abs(logLikelihood);
+    converged = Number.isFinite(previous) && Math.abs(logLikelihood - previous) <= tolerance * Math.abs(logLikelihood);
     if (converged || iterations >= maxIterations) break;
     previous = logLikelihood;
 
@@ -342,7 +386,7 @@ function runEm(
     transformCentroids(Y, M, D, B, t, TY);
     iterations++;
   }
-  return { B, t, sigma2, logLikelihood, iterations, P };
+  return { B, t, sigma2, logLikelihood, previous, iterations, converged, P };
 }
 
 /** TY[m] = B Y[m] + t for every row of the flattened M x D array Y. */

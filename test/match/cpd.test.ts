@@ -135,6 +135,17 @@ describe('alignCpd', () => {
     }
   });
 
+  it('resumes screened starts exactly: screening then continuing equals one uninterrupted run', () => {
+    const flat = generateLayout(createRng(13), { cells: 60, dim: 2 }).positions;
+    const truth: Transform = { kind: 'similarity', linear: [[0.9, -0.3], [0.3, 0.9]], translation: [2, 3] };
+    const sample = makeSample(flat, truth, createRng(14), 0.4);
+    const base = { kind: 'similarity' as const, starts: 1, maxIterations: 30, tolerance: 0 };
+    const resumed = alignCpd(flat, sample, { ...base, screenIterations: 7 });
+    const straight = alignCpd(flat, sample, { ...base, screenIterations: 30 });
+    expect(resumed.iterations).toBe(30);
+    expect(resumed).toEqual(straight);
+  });
+
   it('gives identical results for the same seed', () => {
     const sample = makeSample(template, moderate, createRng(11), 0.5);
     const options = { kind: 'similarity' as const, rng: createRng(12), starts: 7, maxIterations: 20 };
