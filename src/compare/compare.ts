@@ -101,6 +101,8 @@ export interface TemplateComparison {
   readonly covariance: CovarianceSource;
   readonly level: number;
   readonly alpha: number;
+  /** Whether each cell was measured with a leave-one-out alignment whose uncertainty enters the test. */
+  readonly alignmentUncertainty: boolean;
   readonly alignment: {
     readonly kind: 'similarity' | 'rigid';
     /** Maps B's frame into A's. */
@@ -273,6 +275,7 @@ export function compareTemplates(a: Template, b: Template, options: CompareOptio
     covariance: covarianceSource,
     level,
     alpha,
+    alignmentUncertainty: withUncertainty,
     alignment: {
       kind: alignment.kind,
       transform: t,

@@ -19,9 +19,13 @@ export interface CompareReportOptions extends CompareFigureOptions {
 export function comparisonCautions(result: TemplateComparison): string[] {
   return [
     `Displacements are measured after aligning B to A on the shared cells (${result.alignment.kind} fit). A change spread evenly over many cells is partly absorbed by the alignment; the overall shape difference (Procrustes distance and permutation test) speaks to that.`,
-    `p-values treat the alignment as known and use each template's stored covariance${
-      result.covariance === 'template' ? ' (shrunk toward the pooled covariance)' : ' (recomputed sample covariance)'
-    } and count; they are approximate. q-values control the expected share of false calls among the cells called different, not the error of any one cell.`,
+    `p-values are approximate: ${
+      result.alignmentUncertainty
+        ? "each cell is measured with the alignment refitted without it, and that alignment's uncertainty is included"
+        : 'the alignment is treated as known'
+    }; the test uses each template's stored covariance${
+      result.covariance === 'template' ? ' (shrunk toward the pooled covariance, which makes it conservative)' : ' (recomputed sample covariance)'
+    } and count. q-values control the expected share of false calls among the cells called different, not the error of any one cell.`,
     'A cell called different is a proposal to look at in the images, not a finding by itself.',
   ];
 }
@@ -88,10 +92,10 @@ export function buildCompareReport(result: TemplateComparison, options: CompareR
   sections.push({
     heading: 'Method',
     html: paragraph(
-      `B's frame was aligned to A's by an iteratively reweighted ${a.kind} fit on the shared cells, weighted by each cell's precision and by a Tukey biweight on its standardized residual, so that displaced cells do not drag the alignment (residual scale ${fixed(
+      `B's frame was aligned to A's by a ${a.kind} fit on the shared cells, weighted by each cell's precision, started from a trimmed fit and reweighted by a Tukey biweight on the standardized residuals, so that displaced cells do not drag the alignment (residual scale ${fixed(
         a.residualScale,
         2,
-      )}). Each cell's displacement was tested with a two-sample Hotelling T² from the templates' means, covariances and counts; length intervals are the range of lengths inside the ${Math.round(
+      )}). Each cell was then measured with the alignment refitted without it. Each cell's displacement was tested with a two-sample Hotelling T² from the templates' means, covariances and counts; length intervals are the range of lengths inside the ${Math.round(
         100 * result.level,
       )}% confidence ellipsoid of the displacement.`,
     ),

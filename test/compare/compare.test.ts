@@ -96,6 +96,17 @@ describe('compareTemplates: properties (issue 9 item 4)', () => {
       multiplyVector(invertTransform(c.transform).linear, c.displacement).forEach((v, j) => expect(other.displacement[j]).toBeCloseTo(-v, 8));
     }
   });
+  it('in 2-D, a rotated and translated copy gives zero displacement, and swapping keeps p-values (9 digits)', () => {
+    const rng = createRng(44);
+    const layout = syntheticLayout(rng, 15, 2, [2, 1.2]);
+    const a = simulateTemplate(rng, layout, { animals: 10 });
+    const b = simulateTemplate(rng, layout, { animals: 10, displaced: new Map([[layout.labels[0], [5, 0]]]), frame: randomSimilarity(rng, 2, 1.1) });
+    const copy = compareTemplates(a, transformTemplate(a, randomSimilarity(rng, 2, 1)), { permutations: 0 });
+    for (const c of copy.cells) expect(c.length).toBeCloseTo(0, 6);
+    const ab = compareTemplates(a, b, { permutations: 0 });
+    const ba = new Map(compareTemplates(b, a, { permutations: 0 }).cells.map((c) => [c.label, c]));
+    for (const c of ab.cells) expect(ba.get(c.label)!.pValue).toBeCloseTo(c.pValue, 9);
+  });
   it('does not mutate its inputs', () => {
     const { a, b } = pair(7);
     const freeze = <T>(x: T): T => {

@@ -29,7 +29,9 @@ describe('comparisonCautions', () => {
   it('names the covariance used and says that called cells are proposals', () => {
     const { result } = comparison();
     const c = comparisonCautions(result);
-    expect(c[1]).toContain('(shrunk toward the pooled covariance)');
+    expect(c[1]).toContain('(shrunk toward the pooled covariance, which makes it conservative)');
+    expect(c[1]).toContain("that alignment's uncertainty is included");
+    expect(comparisonCautions({ ...result, alignmentUncertainty: false })[1]).toContain('the alignment is treated as known');
     expect(c[2]).toBe('A cell called different is a proposal to look at in the images, not a finding by itself.');
   });
 });
