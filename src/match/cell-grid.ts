@@ -10,6 +10,7 @@
  * answers the same question; the grid is used here only because the scoring
  * loop runs it hundreds of thousands of times per sample.
  */
+import { symmetricEigen } from '../geometry/index.js';
 import type { CellModel } from './cell-model.js';
 
 export interface CellGrid {
@@ -25,14 +26,26 @@ export interface CellGrid {
 /**
  * @param model the cell model
  * @param radius hit radius nu in Mahalanobis units (> 0)
- * @param voxel edge length of a voxel in template units (default: the median reach / 2)
+ * @param voxel edge length of a voxel in template units (default: half the
+ *   median smallest standard deviation of the cells)
+ *
+ * A cell is listed in a voxel when the voxel's box lies within the ball of
+ * radius nu sqrt(lambda_max) around its mean AND the voxel centre is within
+ * Mahalanobis distance nu + (half voxel diagonal) / sqrt(lambda_min) of it
+ * (both are necessary for any point of the box to be within nu).
  */
 export function buildCellGrid(model: CellModel, radius: number, voxel?: number): CellGrid {
   const d = model.dim, K = model.size;
   const reach = new Float64Array(K);
-  for (let k = 0; k < K; k++) reach[k] = radius * model.maxStd[k];
-  const sortedReach = Array.from(reach).sort((a, b) => a - b);
-  const h = voxel ?? Math.max(1e-9, sortedReach[sortedReach.length >> 1] / 2);
+  const minStd = new Float64Array(K);
+  for (let k = 0; k < K; k++) {
+    reach[k] = radius * model.maxStd[k];
+    const { values } = symmetricEigen(model.covariances[k]);
+    minStd[k] = Math.sqrt(Math.max(1e-300, values[values.length - 1]));
+  }
+  const sortedMin = Array.from(minStd).sort((a, b) => a - b);
+  const h = voxel ?? Math.max(1e-9, sortedMin[sortedMin.length >> 1] / 2);
+  const halfDiagonal = (h * Math.sqrt(d)) / 2;
   const lo = new Float64Array(d).fill(Infinity);
   const hi = new Float64Array(d).fill(-Infinity);
   for (let k = 0; k < K; k++)
@@ -67,7 +80,16 @@ export function buildCellGrid(model: CellModel, radius: number, voxel?: number):
         dist2 += gap * gap;
         flat = flat * shape[a] + idx[a];
       }
-      if (dist2 <= r * r) lists[flat].push(k);
+      if (dist2 <= r * r) {
+        let e2 = 0;
+        for (let a = 0; a < d; a++) {
+          let q = 0;
+          for (let b = 0; b < d; b++) q += model.precisions[k * d * d + a * d + b] * (lo[b] + (idx[b] + 0.5) * h - model.means[k * d + b]);
+          e2 += (lo[a] + (idx[a] + 0.5) * h - model.means[k * d + a]) * q;
+        }
+        const limit = radius + halfDiagonal / minStd[k];
+        if (e2 <= limit * limit) lists[flat].push(k);
+      }
       let a = d - 1;
       while (a >= 0) {
         idx[a]++;

@@ -33,10 +33,10 @@ import { buildCellModel, type CellModel } from './cell-model.js';
 import { buildDensityGrid, boundingVolume, determinantFlat, MixtureScorer, type DensityGrid } from './density-grid.js';
 import { learnCellDescriptors, rankCandidates, rankNormalize, rawDescriptors, type CellDescriptors } from './descriptors.js';
 import { exhaustiveHypotheses, isTinyProblem } from './exhaustive.js';
-import { emRefine, mapPoints, nonRigidCorrect, type MixtureContext } from './refine.js';
+import { compassSearch, emRefine, mapPoints, nonRigidCorrect, type MixtureContext } from './refine.js';
 import { searchPose, poseDistance, type Pair, type PoseEstimate, type SearchResult } from './ransac.js';
 import { toFlat } from './affine-flat.js';
-import { greedyMatchingGain, pairGains, sinkhorn, type MatchModelParameters, type PairGains } from './softassign.js';
+import { greedyMatching, greedyMatchingGain, pairGains, sinkhorn, type HardMatching, type MatchModelParameters, type PairGains } from './softassign.js';
 
 /** Default hit radius nu (Mahalanobis units): a proposal within nu of its cell counts as a hit. */
 export const DEFAULT_HIT_RADIUS = 2.5;
@@ -93,19 +93,20 @@ export interface PreparedTemplate {
   readonly model: CellModel;
   readonly descriptors: CellDescriptors;
   readonly density: DensityGrid;
-  /** Cell lists for pair gains, radius 3.5 sqrt(MAX_INFLATION). */
+  /** Cell lists for pair gains, radius 3.5 (pairs beyond it are ignored). */
   readonly pairGrid: CellGrid;
+  /** Cell lists for annealed gains (covariances x 4): radius 7. */
+  readonly annealGrid: CellGrid;
   /** Principal axes of the template means (columns) and their centroid. */
   readonly axes: number[][];
   readonly centroid: number[];
 }
 
-const MAX_INFLATION = 2;
-/** Test-only inspection of the stages (unset in normal use). */
-export let debugHook: ((info: Record<string, unknown>) => void) | null = null;
-export function setDebugHook(h: ((info: Record<string, unknown>) => void) | null): void {
-  debugHook = h;
-}
+const MAX_INFLATION = 1;
+const ANNEALING = [4, 2, 1];
+/** Distinct pose modes refined to the end and compared by their optimal matching. */
+const FINALISTS = 3;
+
 const cache = new WeakMap<Template, PreparedTemplate>();
 
 /**
@@ -120,13 +121,14 @@ export function prepareTemplate(template: Template): PreparedTemplate {
   const descriptors = learnCellDescriptors(template, model, createRng(0x5eed));
   const density = buildDensityGrid(model);
   const pairGrid = buildCellGrid(model, 3.5 * Math.sqrt(MAX_INFLATION));
+  const annealGrid = buildCellGrid(model, 3.5 * Math.sqrt(ANNEALING[0]), 2 * pairGrid.voxel);
   const d = model.dim;
   const centroid = new Array<number>(d).fill(0);
   for (const m of model.meanRows) for (let a = 0; a < d; a++) centroid[a] += m[a] / model.size;
   const scatter = Array.from({ length: d }, () => new Array<number>(d).fill(0));
   for (const m of model.meanRows) for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) scatter[a][b] += (m[a] - centroid[a]) * (m[b] - centroid[b]);
   const axes = symmetricEigen(scatter).vectors;
-  const prepared = { model, descriptors, density, pairGrid, axes, centroid };
+  const prepared = { model, descriptors, density, pairGrid, annealGrid, axes, centroid };
   cache.set(template, prepared);
   return prepared;
 }
@@ -254,17 +256,18 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     outliers: Math.max(1, n - 0.85 * model.size),
     outlierDensity,
   };
-  const refineOne = (t: Transform, kinds: Transform['kind'][], exact = false): { transform: Transform; gain: number; params: MatchModelParameters } => {
+  // Screening refinement: hard EM with annealed cell widths (S_k x 4, x 2, x 1) so that starts a few
+  // micrometres off reach the optimum of their basin.
+  const refineOne = (t: Transform): { transform: Transform; gain: number } => {
     let cur = t;
-    let p = params;
-    for (const kind of kinds) {
-      const r = softassignRefine(model, prepared.pairGrid, points, cur, kind, kind === 'affine' ? affineLimits : limits, p, fixed);
+    let gain = -Infinity;
+    for (const inflation of ANNEALING) {
+      const grid = inflation > 1 ? prepared.annealGrid : prepared.pairGrid;
+      const r = hardEmRefine(model, grid, points, cur, 'similarity', limits, { ...params, inflation }, fixed, { iterations: 6 });
       cur = r.transform;
-      p = r.params;
+      gain = r.gain;
     }
-    // Poses are compared under one fixed model (rho, Lambda of the start), so that gains are comparable.
-    const g = pairGains(model, prepared.pairGrid, mapPoints(cur, points), jacobianOf(cur), params);
-    return { transform: cur, gain: (exact ? exactMatchingGain(g, n, model.size) : greedyMatchingGain(g, n, model.size)) + fixedGain(g, fixed), params: p };
+    return { transform: cur, gain };
   };
   let candidates: Transform[] = starts.map((s) => s.transform);
   if (method === 'ransac' && d >= 2) {
@@ -273,23 +276,25 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     for (const s of starts.slice(0, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
     candidates = candidates.concat(extra);
   }
-  // Quick screen: a short similarity refinement of every candidate, then the full one for the best three.
-  const screened = candidates
-    .map((t) => refineOne(t, ['similarity']))
-    .sort((a, b) => b.gain - a.gain);
-  let best = screened[0];
-  let finalistsDebug: unknown = null;
-  if (method === 'ransac') {
-    const finalists = distinctTransforms(screened.map((s) => s.transform), points, 3);
-    const refined = finalists.map((t) => refineOne(t, ['similarity', 'affine'], true));
-    finalistsDebug = refined.map((r) => ({ t: r.transform, gain: r.gain }));
-    best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
-  } else {
-    best = refineOne(screened[0].transform, ['affine']);
-  }
-  params = best.params;
-  const transform = best.transform;
-  if (debugHook) debugHook({ starts: starts.map((s) => s.transform), screened: screened.map((s) => ({ t: s.transform, gain: s.gain })), best: best.transform, bestGain: best.gain, finalists: finalistsDebug });
+  // Screen every candidate with greedy hard EM (similarity), then refine the best three further.
+  const screened = candidates.map((t) => refineOne(t)).sort((a, b) => b.gain - a.gain);
+  const finalists = distinctTransforms(screened.map((s) => s.transform), points, method === 'ransac' ? FINALISTS : 1, 2 * typicalSpacing(model));
+  const greedyObjective = (t: Transform): number => {
+    if (!isPlausible(t, affineLimits)) return -Infinity;
+    const g = pairGains(model, prepared.pairGrid, mapPoints(t, points), jacobianOf(t), params);
+    return greedyMatching(g, n, model.size).total;
+  };
+  const spacing0 = typicalSpacing(model);
+  const refined = finalists.map((t) => {
+    const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: spacing0 / 2 }, 'similarity', 150);
+    return { transform: c.transform, gain: exactMatchingGain(pairGains(model, prepared.pairGrid, mapPoints(c.transform, points), jacobianOf(c.transform), params), n, model.size) };
+  });
+  const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
+  // Affine refinement of the chosen pose (hard EM on the matching, greedy).
+  const finalPose = hardEmRefine(model, prepared.pairGrid, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
+  // rho and Lambda for the final posterior, from the chosen pose.
+  params = estimateParameters(model, prepared.pairGrid, mapPoints(finalPose, points), jacobianOf(finalPose), params);
+  const transform = finalPose;
   let mapped = mapPoints(transform, points);
   const jac = jacobianOf(transform);
 
@@ -361,6 +366,20 @@ function exactMatchingGain(g: PairGains, points: number, cells: number): number 
   return -assignWithAbstention(cost, new Array<number>(points).fill(0)).total;
 }
 
+/** rho and Lambda re-estimated from the one-to-one posterior (three Sinkhorn rounds). */
+function estimateParameters(model: CellModel, grid: CellGrid, mapped: Points, jacobian: number, start: MatchModelParameters): MatchModelParameters {
+  let params = start;
+  const n = mapped.length;
+  for (let it = 0; it < 3; it++) {
+    const g = pairGains(model, grid, mapped, jacobian, params);
+    const mg = sinkhorn(g, n, model.size, 40);
+    let matched = 0;
+    for (let j = 0; j < mg.pair.length; j++) matched += mg.pair[j];
+    params = { ...params, detection: Math.min(0.98, Math.max(0.3, matched / model.size)), outliers: Math.max(0.5, n - matched) };
+  }
+  return params;
+}
+
 function jacobianOf(t: Transform): number {
   return Math.abs(determinantFlat(toFlat(t).a, t.translation.length));
 }
@@ -410,10 +429,10 @@ function distinctTop(poses: PoseEstimate[], points: Points, keep: number): PoseE
   return out;
 }
 
-function distinctTransforms(ts: Transform[], points: Points, keep: number): Transform[] {
+function distinctTransforms(ts: Transform[], points: Points, keep: number, separation: number): Transform[] {
   const out: Transform[] = [];
   for (const t of ts) {
-    if (out.some((q) => poseDistance(q, t, points) < 1)) continue;
+    if (out.some((q) => poseDistance(q, t, points) < separation)) continue;
     out.push(t);
     if (out.length >= keep) break;
   }
@@ -452,7 +471,7 @@ export function softassignRefine(
   limits: Plausibility,
   params: MatchModelParameters,
   fixed: readonly Pair[],
-  schedule: readonly number[] = [2, 1.5, 1.2, 1, 1, 1],
+  schedule: readonly number[] = [1, 1, 1, 1],
 ): { transform: Transform; params: MatchModelParameters } {
   const d = model.dim, n = points.length, K = model.size;
   let cur = start;
@@ -503,6 +522,86 @@ export function softassignRefine(
     p = { ...p, detection, outliers: Math.max(0.5, n - matched) };
   }
   return { transform: cur, params: p };
+}
+
+/**
+ * Hard EM on the matching likelihood (softassign.ts): match one-to-one
+ * (greedy, or the exact assignment when `exact`), fit template -> sample on
+ * the matched pairs (weights 1 / (tr S_k / d)) and invert; repeat while the
+ * matching gain grows. Given pairs stay matched. The gains use one fixed
+ * (rho, Lambda), so that results from different starts compare.
+ */
+export function hardEmRefine(
+  model: CellModel,
+  grid: CellGrid,
+  points: Points,
+  start: Transform,
+  kind: Transform['kind'],
+  limits: Plausibility,
+  params: MatchModelParameters,
+  fixed: readonly Pair[],
+  options: { iterations?: number; exact?: boolean } = {},
+): { transform: Transform; gain: number; iterations: number } {
+  const n = points.length, K = model.size;
+  const fixedPoint = new Set(fixed.map((f) => f.point));
+  const fixedCells = new Set(fixed.map((f) => f.cell));
+  const evaluate = (t: Transform): { gain: number; cellOfPoint: Int32Array } => {
+    const g = pairGains(model, grid, mapPoints(t, points), jacobianOf(t), params);
+    const fg = fixedGain(g, fixed);
+    // Free part: drop fixed points and cells.
+    if (fixed.length > 0) {
+      const rows: number[] = [];
+      for (let i = 0; i < n; i++) if (!fixedPoint.has(i)) rows.push(i);
+      const colIndex = new Int32Array(K);
+      for (let k = 0; k < K; k++) colIndex[k] = fixedCells.has(k) ? -1 : k;
+      const free = restrictGains(g, rows, colIndex);
+      const m = options.exact ? exactMatching(free, rows.length, K) : greedyMatching(free, rows.length, K);
+      const cellOfPoint = new Int32Array(n).fill(-1);
+      rows.forEach((i, r) => (cellOfPoint[i] = m.cellOfPoint[r]));
+      for (const f of fixed) cellOfPoint[f.point] = f.cell;
+      return { gain: m.total + fg, cellOfPoint };
+    }
+    const m = options.exact ? exactMatching(g, n, K) : greedyMatching(g, n, K);
+    return { gain: m.total, cellOfPoint: m.cellOfPoint };
+  };
+  let cur = start;
+  let e = evaluate(cur);
+  let it = 0;
+  for (; it < (options.iterations ?? 10); it++) {
+    const src: number[][] = [], tgt: number[][] = [], w: number[] = [];
+    e.cellOfPoint.forEach((k, i) => {
+      if (k < 0) return;
+      src.push(model.meanRows[k]);
+      tgt.push(points[i] as number[]);
+      w.push(1 / model.isoVar[k]);
+    });
+    if (src.length < model.dim + 2) break;
+    let next: Transform;
+    try {
+      next = invertTransform(fitTransform(kind, src, tgt, { weights: w }).transform);
+    } catch (err) {
+      if (err instanceof FitError) break;
+      throw err;
+    }
+    if (!isPlausible(next, limits)) break;
+    const en = evaluate(next);
+    if (en.gain <= e.gain + 1e-6) break;
+    cur = next;
+    e = en;
+  }
+  return { transform: cur, gain: e.gain, iterations: it };
+}
+
+/** The optimal one-to-one matching (pairs with g_ik > 0) by the linear assignment solver. */
+function exactMatching(g: PairGains, points: number, cells: number): HardMatching {
+  const cost: number[][] = [];
+  for (let i = 0; i < points; i++) {
+    const row = new Array<number>(cells).fill(Infinity);
+    for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) if (g.gains[j] > 0) row[g.cells[j]] = Math.min(row[g.cells[j]], -g.gains[j]);
+    cost.push(row);
+  }
+  const r = assignWithAbstention(cost, new Array<number>(points).fill(0));
+  return { total: -r.total, cellOfPoint: Int32Array.from(r.rowToColumn) };
 }
 
 /** Final one-to-one assignment with abstention and the posterior confidences. */

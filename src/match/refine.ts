@@ -242,3 +242,97 @@ export function nonRigidCorrect(
 }
 
 export { mapPoints };
+
+/**
+ * Derivative-free local maximisation of `objective` over maps
+ * T' = D(theta) o T, where D is a similarity (or, for `kind` 'affine', an
+ * affine map) about the point `centre` of the template frame, parametrised by
+ * rotation angles, log-scale (per axis for affine), shear terms and
+ * translation. Compass (coordinate pattern) search: try +-step on each
+ * coordinate, keep any improvement, halve the steps when none helps, stop when
+ * the steps fall below `minFraction` of their start (Kolda, Lewis & Torczon
+ * 2003, "Optimization by direct search", SIAM Review 45(3), section 3).
+ */
+export function compassSearch(
+  objective: (t: Transform) => number,
+  start: Transform,
+  centre: readonly number[],
+  steps: { rotation: number; scale: number; translation: number; shear?: number },
+  kind: 'similarity' | 'affine',
+  maxEvaluations = 400,
+  minFraction = 1 / 16,
+): { transform: Transform; value: number; evaluations: number } {
+  const d = centre.length;
+  // Parameter vector: rotations (d = 2: 1, d = 3: 3), log-scales (1 or d), shears (affine: d(d-1)/2), translations (d).
+  const nRot = d === 3 ? 3 : d === 2 ? 1 : 0;
+  const nScale = kind === 'affine' ? d : 1;
+  const nShear = kind === 'affine' ? (d * (d - 1)) / 2 : 0;
+  const size = nRot + nScale + nShear + d;
+  const step = new Array<number>(size);
+  for (let i = 0; i < size; i++) {
+    if (i < nRot) step[i] = steps.rotation;
+    else if (i < nRot + nScale) step[i] = steps.scale;
+    else if (i < nRot + nScale + nShear) step[i] = steps.shear ?? steps.scale;
+    else step[i] = steps.translation;
+  }
+  const initial = step.slice();
+  const build = (theta: number[]): Transform => {
+    // D = R(angles) * (diag(exp(s)) + shear upper part) about the centre.
+    let r: number[][];
+    if (d === 3) r = rotationFromAngles(theta[0], theta[1], theta[2]);
+    else if (d === 2) r = [[Math.cos(theta[0]), -Math.sin(theta[0])], [Math.sin(theta[0]), Math.cos(theta[0])]];
+    else r = [[1]];
+    const m: number[][] = Array.from({ length: d }, (_, a) => Array.from({ length: d }, (_, b) => (a === b ? Math.exp(theta[nRot + (nScale === 1 ? 0 : a)]) : 0)));
+    let sh = nRot + nScale;
+    for (let a = 0; a < d; a++) for (let b = a + 1; b < d; b++) if (nShear > 0) m[a][b] = theta[sh++];
+    const lin: number[][] = Array.from({ length: d }, (_, a) => Array.from({ length: d }, (_, b) => {
+      let s = 0;
+      for (let c = 0; c < d; c++) s += r[a][c] * m[c][b];
+      return s;
+    }));
+    const tr = centre.map((c, a) => c + theta[size - d + a] - lin[a].reduce((s, v, b) => s + v * centre[b], 0));
+    // Compose D o T.
+    const linear = lin.map((row) => start.linear[0].map((_, b) => row.reduce((s, v, c) => s + v * start.linear[c][b], 0)));
+    const translation = lin.map((row, a) => row.reduce((s, v, c) => s + v * start.translation[c], 0) + tr[a]);
+    return { kind: kind === 'affine' || start.kind === 'affine' ? 'affine' : 'similarity', linear, translation };
+  };
+  let theta = new Array<number>(size).fill(0);
+  let best = objective(start);
+  let evaluations = 1;
+  while (evaluations < maxEvaluations) {
+    let improved = false;
+    for (let i = 0; i < size && evaluations < maxEvaluations; i++) {
+      for (const sign of [1, -1]) {
+        const trial = theta.slice();
+        trial[i] += sign * step[i];
+        const v = objective(build(trial));
+        evaluations++;
+        if (v > best + 1e-9) {
+          best = v;
+          theta = trial;
+          improved = true;
+          break;
+        }
+      }
+    }
+    if (!improved) {
+      let small = true;
+      for (let i = 0; i < size; i++) {
+        step[i] /= 2;
+        if (step[i] >= minFraction * initial[i]) small = false;
+      }
+      if (small) break;
+    }
+  }
+  return { transform: build(theta), value: best, evaluations };
+}
+
+/** Rotation R = Rz(c) Ry(b) Rx(a). */
+function rotationFromAngles(a: number, b: number, c: number): number[][] {
+  const ca = Math.cos(a), sa = Math.sin(a), cb = Math.cos(b), sb = Math.sin(b), cc = Math.cos(c), sc = Math.sin(c);
+  return [
+    [cc * cb, cc * sb * sa - sc * ca, cc * sb * ca + sc * sa],
+    [sc * cb, sc * sb * sa + cc * ca, sc * sb * ca - cc * sa],
+    [-sb, cb * sa, cb * ca],
+  ];
+}

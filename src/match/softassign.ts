@@ -23,14 +23,16 @@
  * with g_ik <= 0 can never win and are forbidden).
  *
  * The posterior marginals P(i -> k) over all matchings are approximated by
- * Sinkhorn balancing with slack (Sinkhorn 1964; "softassign", Gold &
- * Rangarajan 1996; the same fixed point as the Bethe approximation of the
- * matching posterior): find a_i, b_k with
- *   a_i (sum_k b_k W_ik + 1) = 1,   b_k (sum_i a_i W_ik + 1) = 1,
- *   W_ik = exp(g_ik),
- * then P(i -> k) = a_i b_k W_ik and P(i is an outlier) = a_i. The slack
- * entries 1 are the outlier and missing-cell options (they carry weight
- * Lambda u and 1 - rho before the division above).
+ * balancing the matrix W_ik = exp(g_ik) (Sinkhorn 1964; "softassign", Gold &
+ * Rangarajan 1996) with a slack column per point (its outlier option, weight
+ * 1 after the division above) and the inequality sum_i P_ik <= 1 per cell (a
+ * cell explains at most one point): P(i -> k) = a_i b_k W_ik with
+ *   a_i = 1 / (1 + sum_k b_k W_ik),   b_k = min(1, 1 / sum_i a_i W_ik),
+ * found by alternating Bregman projections (Bregman 1967; Benamou et al.
+ * 2015, SIAM J. Sci. Comput. 37(2), section 3). Without competition
+ * (b_k = 1) this is the exact per-point posterior W_ik / (1 + sum_l W_il)
+ * of the mixture model; when several points claim one cell, their shares are
+ * scaled down so that they sum to one.
  */
 import type { Points } from '../types.js';
 import type { CellGrid } from './cell-grid.js';
@@ -75,31 +77,59 @@ export function pairGains(
     Math.log(params.outliers * params.outlierDensity) -
     Math.log(1 - params.detection) -
     0.5 * d * Math.log(2 * Math.PI * infl);
-  const rowStart = new Int32Array(mapped.length + 1);
-  const cells: number[] = [], gains: number[] = [], dists: number[] = [];
+  const n = mapped.length;
+  const rowStart = new Int32Array(n + 1);
+  let capacity = Math.max(64, n * 32);
+  let cells = new Int32Array(capacity), gains = new Float64Array(capacity), dists = new Float64Array(capacity);
+  let used = 0;
   const limit = 12.25 * infl;
-  for (let i = 0; i < mapped.length; i++) {
+  const means = model.means, prec = model.precisions, logDets = model.logDets;
+  const offsets = grid.offsets, list = grid.cells;
+  const half = 0.5 / infl;
+  for (let i = 0; i < n; i++) {
     const y = mapped[i];
     const v = voxelOf(grid, y);
     if (v >= 0) {
-      for (let c = grid.offsets[v]; c < grid.offsets[v + 1]; c++) {
-        const k = grid.cells[c];
-        const po = k * d * d, mo = k * d;
-        let e2 = 0;
-        for (let a = 0; a < d; a++) {
-          let r = 0;
-          for (let b = 0; b < d; b++) r += model.precisions[po + a * d + b] * (y[b] - model.means[mo + b]);
-          e2 += (y[a] - model.means[mo + a]) * r;
+      const y0 = y[0], y1 = d > 1 ? y[1] : 0, y2 = d > 2 ? y[2] : 0;
+      for (let c = offsets[v]; c < offsets[v + 1]; c++) {
+        const k = list[c];
+        let e2: number;
+        if (d === 3) {
+          const mo = k * 3, po = k * 9;
+          const p0 = y0 - means[mo], p1 = y1 - means[mo + 1], p2 = y2 - means[mo + 2];
+          e2 =
+            p0 * (prec[po] * p0 + prec[po + 1] * p1 + prec[po + 2] * p2) +
+            p1 * (prec[po + 3] * p0 + prec[po + 4] * p1 + prec[po + 5] * p2) +
+            p2 * (prec[po + 6] * p0 + prec[po + 7] * p1 + prec[po + 8] * p2);
+        } else {
+          e2 = 0;
+          const po = k * d * d, mo = k * d;
+          for (let a = 0; a < d; a++) {
+            let r = 0;
+            for (let b = 0; b < d; b++) r += prec[po + a * d + b] * (y[b] - means[mo + b]);
+            e2 += (y[a] - means[mo + a]) * r;
+          }
         }
         if (e2 > limit) continue;
-        cells.push(k);
-        gains.push(base - 0.5 * model.logDets[k] - (0.5 * e2) / infl);
-        dists.push(e2);
+        if (used === capacity) {
+          capacity *= 2;
+          const nc = new Int32Array(capacity), ng = new Float64Array(capacity), nd = new Float64Array(capacity);
+          nc.set(cells);
+          ng.set(gains);
+          nd.set(dists);
+          cells = nc;
+          gains = ng;
+          dists = nd;
+        }
+        cells[used] = k;
+        gains[used] = base - 0.5 * logDets[k] - half * e2;
+        dists[used] = e2;
+        used++;
       }
     }
-    rowStart[i + 1] = cells.length;
+    rowStart[i + 1] = used;
   }
-  return { rowStart, cells: Int32Array.from(cells), gains: Float64Array.from(gains), distances: Float64Array.from(dists) };
+  return { rowStart, cells: cells.subarray(0, used), gains: gains.subarray(0, used), distances: dists.subarray(0, used) };
 }
 
 export interface Marginals {
@@ -111,7 +141,11 @@ export interface Marginals {
   readonly missing: Float64Array;
 }
 
-/** Sinkhorn balancing with slack (see the module comment). */
+/**
+ * Posterior marginals by alternating Bregman projections (see the module
+ * comment): rows onto sum_k P_ik + P_i0 = 1, columns onto sum_i P_ik <= 1.
+ * Stops when no scaling changes by more than `tolerance` (relative).
+ */
 export function sinkhorn(pairs: PairGains, points: number, cells: number, iterations = 60, tolerance = 1e-6): Marginals {
   const w = new Float64Array(pairs.gains.length);
   for (let j = 0; j < w.length; j++) w[j] = Math.exp(Math.min(pairs.gains[j], 600));
@@ -122,51 +156,114 @@ export function sinkhorn(pairs: PairGains, points: number, cells: number, iterat
     for (let i = 0; i < points; i++) {
       let s = 1;
       for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) s += b[pairs.cells[j]] * w[j];
-      const na = 1 / s;
-      change = Math.max(change, Math.abs(na - a[i]));
-      a[i] = na;
+      a[i] = 1 / s;
     }
-    colSum.fill(1);
+    colSum.fill(0);
     for (let i = 0; i < points; i++)
       for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) colSum[pairs.cells[j]] += a[i] * w[j];
     for (let k = 0; k < cells; k++) {
-      const nb = 1 / colSum[k];
-      change = Math.max(change, Math.abs(nb - b[k]));
+      const nb = colSum[k] > 1 ? 1 / colSum[k] : 1;
+      change = Math.max(change, Math.abs(nb - b[k]) / b[k]);
       b[k] = nb;
     }
     if (change < tolerance) break;
   }
-  const pair = new Float64Array(w.length);
-  for (let i = 0; i < points; i++)
-    for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) pair[j] = a[i] * b[pairs.cells[j]] * w[j];
-  // Row slack after the final column update.
-  const outlier = new Float64Array(points);
+  // Final row projection so that every row is exactly normalised.
   for (let i = 0; i < points; i++) {
-    let s = 0;
-    for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) s += pair[j];
-    outlier[i] = Math.max(0, 1 - s);
+    let s = 1;
+    for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) s += b[pairs.cells[j]] * w[j];
+    a[i] = 1 / s;
   }
-  return { pair, outlier, missing: b.slice() };
+  const pair = new Float64Array(w.length);
+  const claimed = new Float64Array(cells);
+  for (let i = 0; i < points; i++)
+    for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) {
+      pair[j] = a[i] * b[pairs.cells[j]] * w[j];
+      claimed[pairs.cells[j]] += pair[j];
+    }
+  const missing = new Float64Array(cells);
+  for (let k = 0; k < cells; k++) missing[k] = Math.max(0, 1 - claimed[k]);
+  return { pair, outlier: a.slice(), missing };
+}
+
+export interface HardMatching {
+  /** Sum of the gains of the matched pairs. */
+  readonly total: number;
+  /** Matched cell of each point, -1 = none. */
+  readonly cellOfPoint: Int32Array;
+}
+
+/** Total gain of the greedy one-to-one matching (see greedyMatching). */
+export function greedyMatchingGain(pairs: PairGains, points: number, cells: number): number {
+  return greedyMatching(pairs, points, cells).total;
 }
 
 /**
- * Greedy one-to-one matching by descending gain (pairs with g_ik > 0 only):
- * a fast lower bound on max sum g_ik, used to compare candidate poses.
+ * Greedy one-to-one matching by descending gain, pairs with g_ik > 0 only
+ * (each point and each cell at most once). A fast approximation of the
+ * optimal assignment, within a factor 1/2 of its total (the greedy bound for
+ * weighted bipartite matching; Avis 1983).
  */
-export function greedyMatchingGain(pairs: PairGains, points: number, cells: number): number {
-  const idx: number[] = [];
-  for (let j = 0; j < pairs.gains.length; j++) if (pairs.gains[j] > 0) idx.push(j);
-  idx.sort((x, y) => pairs.gains[y] - pairs.gains[x]);
-  const rowOf = new Int32Array(pairs.gains.length);
-  for (let i = 0; i < points; i++) for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) rowOf[j] = i;
-  const usedPoint = new Uint8Array(points), usedCell = new Uint8Array(cells);
+export function greedyMatching(pairs: PairGains, points: number, cells: number): HardMatching {
+  // Locally dominant edges (Preis 1999): a pair that is the best remaining
+  // option of both its point and its cell belongs to the greedy matching; match
+  // all such pairs, drop their point and cell, repeat. Ties go to the lower
+  // pair index, as in a stable sort by descending gain.
+  const { rowStart, cells: cellOf, gains } = pairs;
+  const cellOfPoint = new Int32Array(points).fill(-1);
+  const pointDone = new Uint8Array(points), cellDone = new Uint8Array(cells);
+  const bestOfPoint = new Int32Array(points);
+  const bestOfCell = new Int32Array(cells);
+  const bestCellGain = new Float64Array(cells);
   let total = 0;
-  for (const j of idx) {
-    const i = rowOf[j], k = pairs.cells[j];
-    if (usedPoint[i] || usedCell[k]) continue;
-    usedPoint[i] = 1;
-    usedCell[k] = 1;
-    total += pairs.gains[j];
+  for (;;) {
+    bestOfCell.fill(-1);
+    let active = false;
+    for (let i = 0; i < points; i++) {
+      bestOfPoint[i] = -1;
+      if (pointDone[i]) continue;
+      let bj = -1, bg = 0;
+      for (let j = rowStart[i]; j < rowStart[i + 1]; j++) {
+        const g = gains[j];
+        if (g > bg && !cellDone[cellOf[j]]) {
+          bg = g;
+          bj = j;
+        }
+      }
+      if (bj < 0) {
+        pointDone[i] = 1;
+        continue;
+      }
+      active = true;
+      bestOfPoint[i] = bj;
+    }
+    if (!active) break;
+    // Each cell's best pair among all remaining pairs (not only the points' favourites).
+    for (let i = 0; i < points; i++) {
+      if (pointDone[i]) continue;
+      for (let j = rowStart[i]; j < rowStart[i + 1]; j++) {
+        const k = cellOf[j], g = gains[j];
+        if (g <= 0 || cellDone[k]) continue;
+        if (bestOfCell[k] < 0 || g > bestCellGain[k]) {
+          bestOfCell[k] = j;
+          bestCellGain[k] = g;
+        }
+      }
+    }
+    let matched = 0;
+    for (let i = 0; i < points; i++) {
+      const j = bestOfPoint[i];
+      if (j < 0) continue;
+      const k = cellOf[j];
+      if (bestOfCell[k] !== j) continue;
+      cellOfPoint[i] = k;
+      pointDone[i] = 1;
+      cellDone[k] = 1;
+      total += gains[j];
+      matched++;
+    }
+    if (matched === 0) break; // cannot happen: the globally heaviest remaining pair is locally dominant
   }
-  return total;
+  return { total, cellOfPoint };
 }
+

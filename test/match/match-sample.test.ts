@@ -1,0 +1,186 @@
+import { describe, expect, it } from 'vitest';
+import { UsageError } from '../../src/errors.js';
+import { labelMappedPoints, matchSample } from '../../src/match/match-sample.js';
+import { createRng, randomRotation } from '../../src/random.js';
+import type { Sample, Template } from '../../src/types.js';
+import { generateAnimal, generateLayout } from '../support/animals.js';
+import { templateFromLayout, templateFromTraining } from './support.js';
+
+function sampleOf(id: string, coords: number[][], labels?: (string | null)[]): Sample {
+  return {
+    id,
+    source: `${id}.csv`,
+    dim: coords[0].length as 2 | 3,
+    coords,
+    labels: labels ?? coords.map(() => null),
+    rows: coords.map((_, i) => i + 2),
+    features: { names: [], values: coords.map(() => []) },
+  };
+}
+
+/** 1-D cell positions along a line with irregular gaps (a regular lattice would be shift-ambiguous). */
+const LINE = [0, 3, 9, 11, 18, 24, 26, 33, 40, 43, 51, 55];
+
+/** A 1-D template (cells along a line, sd 0.5 um); Template's type says 2 | 3, the matcher also takes 1. */
+function lineTemplate(count: number): Template {
+  const layout = {
+    dim: 1 as unknown as 2,
+    labels: Array.from({ length: count }, (_, k) => `c${k}`),
+    positions: Array.from({ length: count }, (_, k) => [LINE[k]]),
+    jitter: Array.from({ length: count }, () => [[0.25]]),
+  };
+  return { ...templateFromLayout(layout), dim: 1 as unknown as 2 };
+}
+
+describe('matchSample on synthetic animals (smoke case)', () => {
+  // Easier than the benchmark so the floor is meaningful in a unit test: 60 cells 2 um apart,
+  // jitter sd 0.3-0.9 um (jitterScale 0.3), 10% outliers (half clustered), 10% missing, any rotation.
+  const rng = createRng(20261201);
+  const layout = generateLayout(rng, { cells: 60, dim: 3 });
+  const template = templateFromTraining(layout, rng, { members: 15, animal: { jitterScale: 0.3 } });
+  const animals = [0, 1].map((s) =>
+    generateAnimal(layout, rng, `smoke${s}`, { outlierFraction: 0.1, missingFraction: 0.1, jitterScale: 0.3 }),
+  );
+
+  it('labels at least 80% of the true cells correctly and stays within 0.1 of the oracle', () => {
+    let correct = 0, oracleCorrect = 0, total = 0;
+    for (const [s, animal] of animals.entries()) {
+      const result = matchSample(template, animal.sample, { rng: createRng(s + 1), maxTrials: 300 });
+      const oracle = labelMappedPoints(
+        template,
+        animal.sample,
+        animal.sample.coords.map((p) => animal.toLayoutFrame(p)),
+        1 / animal.scale ** 3,
+      );
+      animal.truth.forEach((label, i) => {
+        if (label === null) return;
+        total++;
+        if (result.proposals[i].label === label) correct++;
+        if (oracle[i].label === label) oracleCorrect++;
+      });
+    }
+    expect(correct / total).toBeGreaterThanOrEqual(0.8);
+    expect(correct / total).toBeGreaterThanOrEqual(oracleCorrect / total - 0.1);
+  });
+
+  it('returns one proposal per point in input order, with at most 3 alternatives sorted by probability', () => {
+    const animal = animals[0];
+    const result = matchSample(template, animal.sample, { rng: createRng(7), maxTrials: 200 });
+    expect(result.proposals).toHaveLength(animal.sample.coords.length);
+    expect(result.sampleId).toBe('smoke0');
+    const used = new Set<string>();
+    for (const p of result.proposals) {
+      expect(p.confidence).toBeGreaterThanOrEqual(0);
+      expect(p.confidence).toBeLessThanOrEqual(1);
+      expect(p.alternatives.length).toBeLessThanOrEqual(3);
+      for (let j = 1; j < p.alternatives.length; j++)
+        expect(p.alternatives[j - 1].probability).toBeGreaterThanOrEqual(p.alternatives[j].probability);
+      if (p.label !== null) {
+        expect(used.has(p.label)).toBe(false); // one-to-one
+        used.add(p.label);
+        expect(p.distance).not.toBeNull();
+      } else {
+        expect(p.distance).toBeNull();
+      }
+    }
+  });
+
+  it('gives the same result for the same seed', () => {
+    const a = matchSample(template, animals[1].sample, { rng: createRng(3), maxTrials: 150 });
+    const b = matchSample(template, animals[1].sample, { rng: createRng(3), maxTrials: 150 });
+    expect(b.proposals).toEqual(a.proposals);
+    expect(b.transform).toEqual(a.transform);
+  });
+
+  it('keeps given labels as fixed correspondences with confidence 1', () => {
+    const animal = animals[0];
+    const labels = animal.sample.labels.slice();
+    const given: number[] = [];
+    animal.truth.forEach((l, i) => {
+      if (l !== null && given.length < 4) {
+        labels[i] = l;
+        given.push(i);
+      }
+    });
+    const sample = { ...animal.sample, labels };
+    const result = matchSample(template, sample, { rng: createRng(5), maxTrials: 150 });
+    for (const i of given) {
+      expect(result.proposals[i].label).toBe(animal.truth[i]);
+      expect(result.proposals[i].confidence).toBe(1);
+    }
+  });
+
+  it('does not depend on the orientation of the sample (same labels on at least 95% of points)', () => {
+    const animal = animals[1];
+    const r = randomRotation(createRng(99), 3);
+    const rotated = animal.sample.coords.map((p) => r.map((row) => row[0] * p[0] + row[1] * p[1] + row[2] * p[2] + 50));
+    const a = matchSample(template, animal.sample, { rng: createRng(11), maxTrials: 300 });
+    const b = matchSample(template, { ...animal.sample, coords: rotated }, { rng: createRng(11), maxTrials: 300 });
+    let same = 0;
+    a.proposals.forEach((p, i) => {
+      if (p.label === b.proposals[i].label) same++;
+    });
+    expect(same / a.proposals.length).toBeGreaterThanOrEqual(0.95);
+  });
+});
+
+describe('matchSample on tiny and 1-D problems (exhaustive search)', () => {
+  it('recovers every label of a 1-D sample shifted by 37 um, exactly', () => {
+    const template = lineTemplate(12);
+    // Cells 2..9 observed, shifted, with small offsets (well inside 0.5 um sd).
+    const coords = [2, 3, 4, 5, 6, 7, 8, 9].map((k, j) => [LINE[k] + 37 + (j % 2 ? 0.1 : -0.1)]);
+    const result = matchSample(template, sampleOf('line', coords), { rng: createRng(1), nonRigid: false });
+    expect(result.stopReason).toBe('exhaustive');
+    expect(result.proposals.map((p) => p.label)).toEqual(['c2', 'c3', 'c4', 'c5', 'c6', 'c7', 'c8', 'c9']);
+    expect(result.transform.translation[0]).toBeCloseTo(-37, 1);
+  });
+
+  it('recovers a tiny rotated 2-D layout of 6 cells', () => {
+    const positions = [
+      [0, 0],
+      [10, 0],
+      [20, 3],
+      [5, 9],
+      [15, 12],
+      [26, 10],
+    ];
+    const layout = {
+      dim: 2 as const,
+      labels: ['Aa', 'Bb', 'Cc', 'Dd', 'Ee', 'Ff'],
+      positions,
+      jitter: positions.map(() => [
+        [0.3, 0],
+        [0, 0.3],
+      ]),
+    };
+    const template = templateFromLayout(layout);
+    const angle = 2.1;
+    const c = Math.cos(angle), s = Math.sin(angle);
+    const order = [4, 0, 5, 2, 1, 3];
+    const coords = order.map((k) => [c * positions[k][0] - s * positions[k][1] + 100, s * positions[k][0] + c * positions[k][1] - 40]);
+    const result = matchSample(template, sampleOf('tiny', coords), { rng: createRng(2), nonRigid: false });
+    expect(result.stopReason).toBe('exhaustive');
+    expect(result.proposals.map((p) => p.label)).toEqual(order.map((k) => layout.labels[k]));
+  });
+});
+
+describe('matchSample input checks', () => {
+  const layout = generateLayout(createRng(4), { cells: 20, dim: 3 });
+  const template = templateFromLayout(layout);
+
+  it('rejects a 2-D sample against a 3-D template with UsageError', () => {
+    expect(() => matchSample(template, sampleOf('flat', [[0, 0], [1, 1], [2, 0]]), { rng: createRng(1) })).toThrow(UsageError);
+  });
+
+  it('rejects a non-positive hit radius and a non-integer trial cap', () => {
+    const sample = sampleOf('s', layout.positions.slice(0, 10));
+    expect(() => matchSample(template, sample, { rng: createRng(1), hitRadius: 0 })).toThrow('hitRadius must be a positive number, got 0');
+    expect(() => matchSample(template, sample, { rng: createRng(1), maxTrials: 2.5 })).toThrow('maxTrials must be a positive integer, got 2.5');
+  });
+
+  it('does not modify its inputs (frozen arrays)', () => {
+    const coords = layout.positions.slice(0, 15).map((p) => Object.freeze(p.slice()));
+    const sample = Object.freeze(sampleOf('frozen', coords as number[][]));
+    expect(() => matchSample(template, sample, { rng: createRng(1), maxTrials: 50 })).not.toThrow();
+  });
+});
