@@ -1,5 +1,5 @@
 import { describe, it, expect } from 'vitest';
-import { applyTransform, fitRigid, fitSimilarity } from '../../src/geometry/index.js';
+import { applyTransform, fitRigid, fitSimilarity, fitTransform, multiply, symmetricEigen, transpose } from '../../src/geometry/index.js';
 import { coRegister, minAlignmentPoints } from '../../src/template/co-register.js';
 import { entryFromSample } from '../../src/template/build.js';
 import { resolveSettings } from '../../src/template/settings.js';
@@ -139,5 +139,30 @@ describe('coRegister robust consensus (hard-rejection reweighting)', () => {
     const reg = coRegister(fx.configurations.map((c, i) => entryFromSample(sampleFromConfiguration(`c${i}`, c))), resolveSettings({ tolerance: 0, maxIterations: 3 }));
     expect(reg.iterations.length).toBe(3);
     expect(reg.converged).toBe(false);
+  });
+});
+
+describe('coRegister with affine alignment', () => {
+  it('recovers a shape seen through random affine maps, and fixes the gauge so the mean stretch of the member maps is the identity (to 1e-6)', () => {
+    const rng = createRng(17);
+    const k = 25;
+    const truth = Array.from({ length: k }, () => [randomNormal(rng) * 20, randomNormal(rng) * 8, randomNormal(rng) * 5]);
+    const samples = Array.from({ length: 12 }, (_, i) => {
+      const a = [0, 1, 2].map((r) => [0, 1, 2].map((c) => (r === c ? 1 : 0) + 0.15 * randomNormal(rng)));
+      const coords = truth.map((p) => a.map((row, r) => row.reduce((s, v, c) => s + v * p[c], 0) + 0.05 * randomNormal(rng) + 10 * r));
+      return sampleFromConfiguration(`s${i}`, coords, coords.map((_, j) => `c${String(j).padStart(2, '0')}`));
+    });
+    const reg = coRegister(samples.map(entryFromSample), resolveSettings({ alignment: 'affine', robust: 'none', tolerance: 1e-10, maxIterations: 500 }));
+    expect(reg.converged).toBe(true);
+    // Consensus equals the truth up to an affine map: the affine fit leaves residuals at the noise level.
+    const fit = fitTransform('affine', reg.consensus, truth);
+    expect(Math.sqrt(fit.meanSquaredResidual)).toBeLessThan(0.1);
+    // Gauge: mean over members of (A_i A_i^T)^(1/2) = I.
+    const mean = [0, 1, 2].map(() => [0, 0, 0]);
+    for (const t of reg.transforms) {
+      const { values, vectors } = symmetricEigen(multiply(t.linear, transpose(t.linear)));
+      for (let c = 0; c < 3; c++) for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) mean[a][b] += (Math.sqrt(values[c]) * vectors[a][c] * vectors[b][c]) / reg.transforms.length;
+    }
+    for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) expect(mean[a][b]).toBeCloseTo(a === b ? 1 : 0, 6);
   });
 });
