@@ -14,7 +14,7 @@
  * the ratios against the baseline measured in the same run.
  */
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -24,7 +24,7 @@ import { batch } from './cases/batch.js';
 import { build1000, build200, build50 } from './cases/build.js';
 import { match190, match400 } from './cases/match.js';
 import type { BenchCase, CaseContext, CaseResult } from './cases/types.js';
-import { currentRssMiB, formatMs, formatRatio, formatStats, machineInfo, markdownTable, textTable, type MachineInfo } from './harness.js';
+import { currentRssMiB, formatMs, formatRatio, formatStats, machineInfo, textTable, type MachineInfo } from './harness.js';
 import { renderDocs } from './report.js';
 
 const CASES: readonly BenchCase[] = [build50, build200, build1000, add200, match190, match400, assign300, assign1000, batch];
@@ -155,10 +155,11 @@ async function runParent(args: Args): Promise<void> {
   if (args.json) writeFileSync(args.json, JSON.stringify({ machine, end, command, quick: args.quick, results, failures }, null, 2) + '\n');
   if (args.writeDocs) {
     const file = path.join(root, 'docs', 'benchmarks.md');
-    writeFileSync(file, renderDocs({ machine, end, command: `npm run bench -- ${process.argv.slice(2).join(' ')}`.trim(), quick: args.quick, results, failures }));
+    const existing = existsSync(file) ? readFileSync(file, 'utf8') : undefined;
+    const shown = process.argv.slice(2).filter((a) => a !== '--write-docs').join(' ');
+    writeFileSync(file, renderDocs({ machine, end, command: shown ? `npm run bench -- ${shown}` : 'npm run bench', quick: args.quick, results, failures }, existing));
     console.log(`\nwrote ${path.relative(root, file)}`);
   }
-  void markdownTable;
   if (failures.length) {
     console.log(`\nfailed cases: ${failures.join('; ')}`);
     process.exitCode = 1;

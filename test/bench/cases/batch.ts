@@ -47,7 +47,7 @@ export const batch: BenchCase = {
   title: 'batch match: 190-point samples against a 190-cell template, --jobs 1 vs --jobs 2',
   async run(ctx) {
     const count = ctx.batchSize ?? (ctx.quick ? 10 : 200);
-    const repeats = ctx.quick ? 1 : 3;
+    const repeats = ctx.quick ? 1 : count > 50 ? 2 : 3;
     ctx.log(`batch-match: generating the template and ${count} samples`);
     const data = batchData(count, SEED);
     const dir = path.join(ctx.tmp, 'batch');
