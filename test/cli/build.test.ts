@@ -65,7 +65,9 @@ describe('cairn build', () => {
     expect((await run('build', ...files, '-o', c)).code).toBe(0);
     const ta = parseTemplate(readFileSync(a, 'utf8'), a), tb = parseTemplate(readFileSync(b, 'utf8'), b);
     expect(tb.cells).toEqual(ta.cells);
-    expect(parseTemplate(readFileSync(c, 'utf8'), c).created).toMatch(/^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d/);
+    const tc = parseTemplate(readFileSync(c, 'utf8'), c);
+    expect(tc.created).toMatch(/^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d/);
+    expectSchemaValid(tc);
     const again = join(dir, 'again.json');
     await run('build', ...files, '-o', again, '--no-timestamp');
     expect(readFileSync(again, 'utf8')).toBe(readFileSync(a, 'utf8'));

@@ -7,6 +7,8 @@ import type { Dim, Sample, Template } from '../../src/types.js';
 
 const schema = JSON.parse(readFileSync(new URL('../../docs/template.schema.json', import.meta.url), 'utf8'));
 const ajv = new (Ajv2020 as unknown as typeof Ajv2020.default)({ allErrors: true, strict: false });
+// RFC 3339 date-time (ajv-formats is not a dependency): enough to check the `created` stamp.
+ajv.addFormat('date-time', /^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(\.\d+)?(Z|[+-]\d\d:\d\d)$/);
 const validate = ajv.compile(schema);
 
 /** Validate the serialised template against docs/template.schema.json (ajv 8, draft 2020-12). */
