@@ -21,7 +21,8 @@
  *
  * A sample whose content hash is already a member changes nothing: when no
  * sample is new and no refit is asked for, the very template object given is
- * returned.
+ * returned (options that would change settings then have no effect either;
+ * use refit to re-derive a template under new settings).
  */
 import { FitError, InputError } from '../errors.js';
 import { applyTransform, mahalanobisSquared, precisionMatrix } from '../geometry/index.js';
