@@ -12,6 +12,7 @@ import { registerCheck } from './check.js';
 import { registerInspect } from './inspect.js';
 import { registerCompare } from './compare.js';
 import { registerEvaluate } from './evaluate.js';
+import { registerMatch } from './match.js';
 
 export interface CliIo {
   stdout: (text: string) => void;
@@ -26,7 +27,7 @@ const processIo: CliIo = {
 /** Each command module exports a function that adds itself to the program. */
 export type CommandRegistrar = (program: Command, io: CliIo) => void;
 
-const registrars: CommandRegistrar[] = [registerCheck, registerInspect, registerBuild, registerAdd, registerCompare, registerEvaluate];
+const registrars: CommandRegistrar[] = [registerCheck, registerInspect, registerBuild, registerAdd, registerCompare, registerEvaluate, registerMatch];
 
 export function createProgram(io: CliIo = processIo): Command {
   const program = new Command();

@@ -28,6 +28,8 @@ import { createRng, type Rng } from '../random.js';
 import type { Points, Sample, Template, Transform } from '../types.js';
 import { isPlausible, type Plausibility } from './affine-flat.js';
 import { assignWithAbstention } from './assignment.js';
+import { alignCpd } from './cpd.js';
+import { alignIcp } from './icp.js';
 import { buildCellGrid, type CellGrid } from './cell-grid.js';
 import { buildCellModel, type CellModel } from './cell-model.js';
 import { buildDensityGrid, boundingVolume, determinantFlat, MixtureScorer, type DensityGrid } from './density-grid.js';
@@ -38,8 +40,13 @@ import { searchPose, poseDistance, type Pair, type PoseEstimate, type SearchResu
 import { toFlat } from './affine-flat.js';
 import { greedyMatching, greedyMatchingGain, pairGains, sinkhorn, type HardMatching, type MatchModelParameters, type PairGains } from './softassign.js';
 
-/** Default hit radius nu (Mahalanobis units): a proposal within nu of its cell counts as a hit. */
-export const DEFAULT_HIT_RADIUS = 2.5;
+/**
+ * Default hit radius nu (Mahalanobis units): the gate of the final assignment
+ * (a point is never given a cell farther than nu) and the radius within which
+ * a proposal counts as a hit. 3.5 leaves a 3-D Gaussian tail of about 0.6%
+ * (chi-square, 3 degrees of freedom) outside the gate.
+ */
+export const DEFAULT_HIT_RADIUS = 3.5;
 /** Default cap on RANSAC trials. */
 export const DEFAULT_MAX_TRIALS = 1500;
 /** Default plausible scale range of the sample -> template map (template kept at the average animal's size). */
@@ -86,7 +93,7 @@ export interface MatchResult {
 }
 
 /** Whether the non-rigid correction is on by default (chosen on the accuracy suite; see docs/algorithms.md). */
-export const DEFAULT_NON_RIGID = true;
+export const DEFAULT_NON_RIGID = false;
 
 /** Template-derived structures, computed once per template object. */
 export interface PreparedTemplate {
@@ -147,16 +154,6 @@ function checkInputs(template: Template, sample: Sample, options: MatchOptions):
   if (!(a >= 0 && a <= 1)) throw new UsageError(`matchSample: abstainBelow must be in [0, 1], got ${a}`);
   const s = options.scaleRange ?? DEFAULT_SCALE_RANGE;
   if (!(s[0] > 0 && s[1] >= s[0])) throw new UsageError(`matchSample: scaleRange must satisfy 0 < low <= high, got [${s[0]}, ${s[1]}]`);
-}
-
-/** A coarse pose source for the baselines: called with the template means and the sample points. */
-export type BaselineAligner = (templateMeans: Points, samplePoints: Points, rng: Rng) => Transform;
-
-const baselines = new Map<string, BaselineAligner>();
-
-/** Register the alignment used by `method: 'icp' | 'cpd'` (done by src/match/baselines.ts). */
-export function registerBaseline(name: 'icp' | 'cpd', aligner: BaselineAligner): void {
-  baselines.set(name, aligner);
 }
 
 /**
@@ -239,14 +236,17 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       trials = search.trials;
       stopReason = search.stopReason;
     }
-  } else {
-    const aligner = baselines.get(method);
-    if (!aligner) throw new UsageError(`matchSample: method "${method}" is not available`);
-    const t = aligner(model.meanRows, points, options.rng);
+  } else if (method === 'icp' || method === 'cpd') {
+    const t =
+      method === 'icp'
+        ? alignIcp(model.meanRows, points, { rng: options.rng, kind: 'similarity' }).transform
+        : alignCpd(model.meanRows, points, { rng: options.rng, kind: 'similarity', w: 0.2 }).transform;
     const s = objective.score(t);
     starts = [{ transform: t, score: s.score, hits: s.hits }];
     trials = 1;
-    stopReason = 'baseline';
+    stopReason = method;
+  } else {
+    throw new UsageError(`matchSample: method must be 'ransac', 'icp' or 'cpd', got ${JSON.stringify(method)}`);
   }
   if (starts.length === 0) throw new FitError(`sample ${sample.id}: no plausible pose found`);
 
@@ -270,7 +270,10 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     return { transform: cur, gain };
   };
   let candidates: Transform[] = starts.map((s) => s.transform);
-  if (method === 'ransac' && d >= 2) {
+  if (method !== 'ransac') {
+    return finish(starts[0].transform);
+  }
+  if (d >= 2) {
     const flips = halfTurns(prepared.axes, prepared.centroid);
     const extra: Transform[] = [];
     for (const s of starts.slice(0, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
@@ -278,7 +281,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   }
   // Screen every candidate with greedy hard EM (similarity), then refine the best three further.
   const screened = candidates.map((t) => refineOne(t)).sort((a, b) => b.gain - a.gain);
-  const finalists = distinctTransforms(screened.map((s) => s.transform), points, method === 'ransac' ? FINALISTS : 1, 2 * typicalSpacing(model));
+  const finalists = distinctTransforms(screened.map((s) => s.transform), points, FINALISTS, 2 * typicalSpacing(model));
   const greedyObjective = (t: Transform): number => {
     if (!isPlausible(t, affineLimits)) return -Infinity;
     const g = pairGains(model, prepared.pairGrid, mapPoints(t, points), jacobianOf(t), params);
@@ -292,67 +295,73 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
   // Affine refinement of the chosen pose (hard EM on the matching, greedy).
   const finalPose = hardEmRefine(model, prepared.pairGrid, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
-  // rho and Lambda for the final posterior, from the chosen pose.
-  params = estimateParameters(model, prepared.pairGrid, mapPoints(finalPose, points), jacobianOf(finalPose), params);
-  const transform = finalPose;
-  let mapped = mapPoints(transform, points);
-  const jac = jacobianOf(transform);
+  return finish(finalPose);
 
-  // Stage 3: non-rigid correction.
-  let nonRigidApplied = false;
-  if (nonRigid && n >= 2 * (d + 1)) {
-    const spacing = typicalSpacing(model);
-    const estep = (y: Points) => {
-      const g = pairGains(model, prepared.pairGrid, y, jac, params);
-      const mg = sinkhorn(g, n, model.size, 40);
-      const expected: (number[] | null)[] = [];
-      const weight: number[] = [];
-      for (let i = 0; i < n; i++) {
-        const m = new Array<number>(d).fill(0);
-        let w = 0;
-        for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) {
-          const k = g.cells[j];
-          const pw = fixedCell.has(i) ? (k === fixedCell.get(i) ? 1 : 0) : mg.pair[j];
-          w += pw;
-          for (let a = 0; a < d; a++) m[a] += pw * model.means[k * d + a];
+  /** Stages 3 and 4 from the chosen affine pose. */
+  function finish(finalPose: Transform): MatchResult {
+    // rho and Lambda for the final posterior, from the chosen pose.
+    params = estimateParameters(model, prepared.pairGrid, mapPoints(finalPose, points), jacobianOf(finalPose), params);
+    const transform = finalPose;
+    let mapped = mapPoints(transform, points);
+    const jac = jacobianOf(transform);
+
+    // Stage 3: non-rigid correction.
+    let nonRigidApplied = false;
+    if (nonRigid && n >= 2 * (d + 1)) {
+      const spacing = typicalSpacing(model);
+      const estep = (y: Points) => {
+        const g = pairGains(model, prepared.pairGrid, y, jac, params);
+        const mg = sinkhorn(g, n, model.size, 40);
+        const expected: (number[] | null)[] = [];
+        const weight: number[] = [];
+        for (let i = 0; i < n; i++) {
+          const m = new Array<number>(d).fill(0);
+          let w = 0;
+          for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) {
+            const k = g.cells[j];
+            const pw = fixedCell.has(i) ? (k === fixedCell.get(i) ? 1 : 0) : mg.pair[j];
+            w += pw;
+            for (let a = 0; a < d; a++) m[a] += pw * model.means[k * d + a];
+          }
+          if (w > 1e-9) {
+            expected.push(m.map((v) => v / w));
+            weight.push(w);
+          } else {
+            expected.push(null);
+            weight.push(0);
+          }
         }
-        if (w > 1e-9) {
-          expected.push(m.map((v) => v / w));
-          weight.push(w);
-        } else {
-          expected.push(null);
-          weight.push(0);
-        }
+        return { expected, weight, objective: greedyMatchingGain(g, n, model.size) };
+      };
+      const nr = nonRigidCorrect(estep, mapped, 6 * spacing, 8, 4);
+      if (nr.iterations > 0) {
+        mapped = nr.mapped;
+        nonRigidApplied = true;
       }
-      return { expected, weight, objective: greedyMatchingGain(g, n, model.size) };
-    };
-    const nr = nonRigidCorrect(estep, mapped, 6 * spacing, 8, 4);
-    if (nr.iterations > 0) {
-      mapped = nr.mapped;
-      nonRigidApplied = true;
     }
-  }
 
-  // Stage 4: assignment and posteriors.
-  const gains = pairGains(model, prepared.pairGrid, mapped, jac, params);
-  const proposals = assignAndScore(model, gains, mapped, fixedCell, sample.labels, radius, options.abstainBelow ?? 0);
-  let hits = 0, score = 0;
-  proposals.forEach((p, i) => {
-    if (p.label !== null && p.distance !== null && p.distance < radius) hits++;
-    const k = p.label === null ? undefined : model.labelIndex.get(p.label);
-    if (k !== undefined) for (let j = gains.rowStart[i]; j < gains.rowStart[i + 1]; j++) if (gains.cells[j] === k) score += gains.gains[j];
-  });
-  return {
-    sampleId: sample.id,
-    method,
-    proposals,
-    transform,
-    hits,
-    score,
-    trials,
-    stopReason,
-    nonRigid: nonRigidApplied,
-  };
+    // Stage 4: assignment and posteriors.
+    const gains = pairGains(model, prepared.pairGrid, mapped, jac, params);
+    const proposals = assignAndScore(model, gains, mapped, fixedCell, sample.labels, radius, options.abstainBelow ?? 0);
+    let hits = 0, score = 0;
+    proposals.forEach((p, i) => {
+      if (p.label !== null && p.distance !== null && p.distance < radius) hits++;
+      const k = p.label === null ? undefined : model.labelIndex.get(p.label);
+      if (k !== undefined) for (let j = gains.rowStart[i]; j < gains.rowStart[i + 1]; j++) if (gains.cells[j] === k) score += gains.gains[j];
+    });
+    return {
+      sampleId: sample.id,
+      method,
+      proposals,
+      transform,
+      hits,
+      score,
+      trials,
+      stopReason,
+      nonRigid: nonRigidApplied,
+    };
+
+  }
 }
 
 /** max sum g_ik over one-to-one matchings (pairs with g_ik > 0), by the linear assignment solver. */
@@ -633,7 +642,7 @@ function assignAndScore(
   rows.forEach((i, r) => {
     for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++) {
       const g = freeGains.gains[j];
-      if (g > 0) cost[r][freeGains.cells[j]] = -g;
+      if (g > 0 && freeGains.distances[j] <= radius * radius) cost[r][freeGains.cells[j]] = -g;
     }
   });
   const assignment = rows.length > 0 && cols.length > 0 ? assignWithAbstention(cost, rows.map(() => 0)) : null;
@@ -670,7 +679,6 @@ function assignAndScore(
     }
     proposals[i] = { label, confidence, distance, alternatives: top };
   });
-  void radius;
   return proposals;
 }
 

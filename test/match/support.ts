@@ -3,6 +3,7 @@
  * layout, or from generated training animals aligned by their known
  * deformation (so that matcher tests do not depend on the template module).
  */
+import { createHash } from 'node:crypto';
 import { fitSimilarity } from '../../src/geometry/index.js';
 import type { Rng } from '../../src/random.js';
 import type { Template, TemplateCell, TemplateMember } from '../../src/types.js';
@@ -98,7 +99,7 @@ export function templateFromTraining(layout: Layout, rng: Rng, options: Training
     const fit = fitSimilarity(own, framed);
     members.push({
       id: animal.sample.id,
-      hash: `test-${m}`,
+      hash: createHash('sha256').update(animal.sample.id).digest('hex'),
       transform: fit.transform,
       residual: Math.sqrt(fit.meanSquaredResidual),
       labelled: positions.length,

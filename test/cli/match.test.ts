@@ -1,0 +1,108 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { main } from '../../src/cli/main.js';
+import { serializeTemplate } from '../../src/io/template-file.js';
+import { formatCsv } from '../../src/io/write.js';
+import { createRng } from '../../src/random.js';
+import { generateAnimal, generateLayout } from '../support/animals.js';
+import { templateFromTraining } from '../match/support.js';
+
+async function run(...args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
+  let stdout = '';
+  let stderr = '';
+  const code = await main(['node', 'cairn', ...args], { stdout: (t) => (stdout += t), stderr: (t) => (stderr += t) });
+  return { code, stdout, stderr };
+}
+
+describe('cairn match', () => {
+  let dir = '';
+  let templateFile = '';
+  const sampleFiles: string[] = [];
+  const truths: (string | null)[][] = [];
+
+  beforeAll(() => {
+    dir = mkdtempSync(join(tmpdir(), 'cairn-match-'));
+    const rng = createRng(777);
+    const layout = generateLayout(rng, { cells: 40, dim: 3 });
+    const template = templateFromTraining(layout, rng, { members: 10, animal: { jitterScale: 0.3 } });
+    templateFile = join(dir, 'template.json');
+    writeFileSync(templateFile, serializeTemplate(template));
+    for (let s = 0; s < 3; s++) {
+      const a = generateAnimal(layout, rng, `probe${s}`, { outlierFraction: 0.1, missingFraction: 0.1, jitterScale: 0.3 });
+      const file = join(dir, `probe${s}.csv`);
+      writeFileSync(file, formatCsv(['x', 'y', 'z', 'label', 'gfp'], a.sample.coords.map((p, i) => [...p, '', i / 10])));
+      sampleFiles.push(file);
+      truths.push(a.truth);
+    }
+  });
+  afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+  it('writes one CSV per sample with the input rows in order plus label, confidence and distance, and summary.json', async () => {
+    const out = join(dir, 'out1');
+    const r = await run('match', templateFile, ...sampleFiles, '-o', out, '--seed', '5', '--max-trials', '200');
+    expect(r.stderr).toBe('');
+    expect(r.code).toBe(0);
+    expect(r.stdout).toContain('Labels are proposals to verify');
+    const lines = readFileSync(join(out, 'probe0.csv'), 'utf8').trim().split('\n');
+    expect(lines[0]).toBe('row,x,y,z,gfp,label,confidence,distance');
+    const input = readFileSync(sampleFiles[0], 'utf8').trim().split('\n');
+    expect(lines).toHaveLength(input.length);
+    // Input order kept: row numbers 2..n+1 and the feature column carried along.
+    lines.slice(1).forEach((line, i) => {
+      const f = line.split(',');
+      expect(Number(f[0])).toBe(i + 2);
+      expect(Number(f[4])).toBeCloseTo(i / 10, 12);
+    });
+    // Most true cells get their true label (easy setting: jitter sd 0.3-0.9 um).
+    let correct = 0, total = 0;
+    lines.slice(1).forEach((line, i) => {
+      const label = line.split(',')[5];
+      if (truths[0][i] === null) return;
+      total++;
+      if (label === truths[0][i]) correct++;
+    });
+    expect(correct / total).toBeGreaterThanOrEqual(0.8);
+    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8'));
+    expect(summary.format).toBe('cairn-match');
+    expect(summary.samples.map((s: { id: string }) => s.id)).toEqual(['probe0', 'probe1', 'probe2']);
+    expect(summary.samples[0].transform.linear).toHaveLength(3);
+  });
+
+  it('gives byte-identical CSVs with --jobs 2 and --jobs 1', async () => {
+    const a = join(dir, 'serial');
+    const b = join(dir, 'parallel');
+    expect((await run('match', templateFile, ...sampleFiles, '-o', a, '--seed', '9', '--max-trials', '150')).code).toBe(0);
+    expect((await run('match', templateFile, ...sampleFiles, '-o', b, '--seed', '9', '--max-trials', '150', '--jobs', '2')).code).toBe(0);
+    for (const id of ['probe0', 'probe1', 'probe2']) {
+      expect(readFileSync(join(b, `${id}.csv`), 'utf8')).toBe(readFileSync(join(a, `${id}.csv`), 'utf8'));
+    }
+  });
+
+  it('refuses to overwrite existing outputs without --force and writes nothing', async () => {
+    const out = join(dir, 'again');
+    expect((await run('match', templateFile, sampleFiles[0], '-o', out, '--max-trials', '100')).code).toBe(0);
+    const before = readFileSync(join(out, 'probe0.csv'), 'utf8');
+    const r = await run('match', templateFile, sampleFiles[0], sampleFiles[1], '-o', out, '--max-trials', '100');
+    expect(r.code).toBe(1);
+    expect(r.stderr).toContain('exists; use --force to overwrite');
+    expect(existsSync(join(out, 'probe1.csv'))).toBe(false);
+    expect(readFileSync(join(out, 'probe0.csv'), 'utf8')).toBe(before);
+    expect((await run('match', templateFile, sampleFiles[0], '-o', out, '--max-trials', '100', '--force')).code).toBe(0);
+  });
+
+  it('exits 2 on an unknown method and on a bad hit radius', async () => {
+    expect((await run('match', templateFile, sampleFiles[0], '-o', join(dir, 'x'), '--method', 'guess')).code).toBe(2);
+    const r = await run('match', templateFile, sampleFiles[0], '-o', join(dir, 'x'), '--hit-radius', '-1');
+    expect(r.code).toBe(2);
+  });
+
+  it('prints the summary as JSON under --json', async () => {
+    const r = await run('match', templateFile, sampleFiles[1], '-o', join(dir, 'json'), '--json', '--max-trials', '100');
+    expect(r.code).toBe(0);
+    const s = JSON.parse(r.stdout);
+    expect(s.samples[0].id).toBe('probe1');
+    expect(s.samples[0].proposed).toBeGreaterThan(0);
+  });
+});
