@@ -35,6 +35,7 @@ export function runAdd(templatePath: string, paths: readonly string[], o: AddCom
   let lead = `cairn add: wrote ${o.output}: ${r.added.length} added${o.refit ? ' (refit from all members)' : ''}`;
   if (r.alreadyMembers.length > 0) lead += `, ${r.alreadyMembers.length} already member${r.alreadyMembers.length === 1 ? '' : 's'} (${r.alreadyMembers.join(', ')})`;
   if (unchanged) lead += '; template unchanged';
+  if (o.quiet) return;
   io.stdout(renderSummaryText(lead, s, o.refit ? 'flagged' : 'newly flagged'));
 }
 

@@ -29,6 +29,7 @@ export interface TemplateCommandOptions {
   readonly timestamp: boolean;
   readonly force?: boolean;
   readonly json?: boolean;
+  readonly quiet?: boolean;
   readonly voxelSize?: number[];
 }
 
@@ -95,6 +96,7 @@ export function addTemplateOptions(cmd: Command): Command {
     .option('--no-timestamp', 'leave the creation time out of the template (reproducible bytes)')
     .option('--force', 'replace the output file when it exists')
     .option('--json', 'print the summary as JSON on stdout')
+    .option('--quiet', 'print nothing on success (warnings still go to stderr)')
     .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis; coordinates are multiplied by it', voxelSizeArgument);
 }
 
@@ -171,7 +173,7 @@ export function runBuild(paths: readonly string[], o: TemplateCommandOptions, io
   const template = stamped(r.template, o.timestamp);
   writeFileAtomic(o.output, serializeTemplate(template), { force: o.force, inputs: paths });
   const s = summarise(o.output, template, r.flagged, r.skipped, r.iterations, r.converged);
-  io.stdout(o.json ? JSON.stringify(s, null, 2) + '\n' : renderSummaryText(`cairn build: wrote ${o.output}`, s));
+  if (!o.quiet || o.json) io.stdout(o.json ? JSON.stringify(s, null, 2) + '\n' : renderSummaryText(`cairn build: wrote ${o.output}`, s));
   if (!r.converged) io.stderr(`cairn build: warning: co-registration stopped at the iteration cap (${r.iterations.length}) before reaching the tolerance\n`);
 }
 

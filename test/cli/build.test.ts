@@ -73,6 +73,14 @@ describe('cairn build', () => {
     expect(readFileSync(again, 'utf8')).toBe(readFileSync(a, 'utf8'));
   });
 
+  it('prints nothing under --quiet and still writes the template', async () => {
+    const out = join(dir, 'q.json');
+    const r = await run('build', ...files, '-o', out, '--quiet');
+    expect(r.code).toBe(0);
+    expect(r.stdout).toBe('');
+    expect(existsSync(out)).toBe(true);
+  });
+
   it('prints a JSON summary under --json', async () => {
     const out = join(dir, 'j.json');
     const r = await run('build', ...files, '-o', out, '--json', '--min-count', '7', '--alignment', 'rigid');
