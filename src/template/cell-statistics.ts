@@ -24,8 +24,7 @@
 import { FitError } from '../errors.js';
 import { symmetricEigen, zeros } from '../geometry/index.js';
 import type { Matrix, Template, TemplateCell } from '../types.js';
-import { chiSquareQuantile } from './chi-square.js';
-import { fQuantile } from './f-distribution.js';
+import { chiSquareQuantile, fQuantile } from '../stats/index.js';
 
 /** Smallest eigenvalue allowed in the pooled covariance: (0.001 um)^2. */
 export const POOLED_EIGENVALUE_FLOOR = 1e-6;

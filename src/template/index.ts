@@ -6,5 +6,3 @@ export { predictiveCovariance, predictiveCutoff, type FlagReference } from './ce
 export { sampleHash } from './sample-hash.js';
 export { DEFAULT_SETTINGS, type BuildOptions, type RobustMethod } from './settings.js';
 export type { IterationDiagnostics, SkippedSample } from './co-register.js';
-export { chiSquareCdf, chiSquareQuantile } from './chi-square.js';
-export { fCdf, fQuantile } from './f-distribution.js';

@@ -14,7 +14,8 @@
 import { cpus, loadavg } from 'node:os';
 import { applyTransform, fitRigid, fitSimilarity, gaussianLogDensity, mahalanobisSquared, precisionMatrix } from '../../src/geometry/index.js';
 import { createRng } from '../../src/random.js';
-import { buildTemplate, chiSquareQuantile, predictiveCovariance } from '../../src/template/index.js';
+import { buildTemplate, predictiveCovariance } from '../../src/template/index.js';
+import { chiSquareQuantile } from '../../src/stats/index.js';
 import { fitMemberMap } from '../../src/template/co-register.js';
 import { predictiveCutoff } from '../../src/template/cell-statistics.js';
 import type { Sample, Template } from '../../src/types.js';

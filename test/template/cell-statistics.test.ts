@@ -12,7 +12,7 @@ import {
 } from '../../src/template/cell-statistics.js';
 import { fitSimilarity, isPositiveDefinite, mahalanobisSquared, precisionMatrix, applyTransform, symmetricEigen } from '../../src/geometry/index.js';
 import { buildTemplate } from '../../src/template/build.js';
-import { chiSquareQuantile } from '../../src/template/chi-square.js';
+import { chiSquareQuantile } from '../../src/stats/index.js';
 import { createRng } from '../../src/random.js';
 import { generateAnimal, generateLayout } from '../support/animals.js';
 
