@@ -26,8 +26,8 @@ export interface CellGrid {
 /**
  * @param model the cell model
  * @param radius hit radius nu in Mahalanobis units (> 0)
- * @param voxel edge length of a voxel in template units (default: half the
- *   median smallest standard deviation of the cells)
+ * @param voxel edge length of a voxel in template units (default: the median
+ *   smallest standard deviation of the cells)
  *
  * A cell is listed in a voxel when the voxel's box lies within the ball of
  * radius nu sqrt(lambda_max) around its mean AND the voxel centre is within
@@ -44,7 +44,7 @@ export function buildCellGrid(model: CellModel, radius: number, voxel?: number):
     minStd[k] = Math.sqrt(Math.max(1e-300, values[values.length - 1]));
   }
   const sortedMin = Array.from(minStd).sort((a, b) => a - b);
-  const h = voxel ?? Math.max(1e-9, sortedMin[sortedMin.length >> 1] / 2);
+  const h = voxel ?? Math.max(1e-9, sortedMin[sortedMin.length >> 1]);
   const halfDiagonal = (h * Math.sqrt(d)) / 2;
   const lo = new Float64Array(d).fill(Infinity);
   const hi = new Float64Array(d).fill(-Infinity);

@@ -48,7 +48,7 @@ import { greedyMatching, greedyMatchingGain, pairGains, sinkhorn, type HardMatch
  */
 export const DEFAULT_HIT_RADIUS = 3.5;
 /** Default cap on RANSAC trials. */
-export const DEFAULT_MAX_TRIALS = 1500;
+export const DEFAULT_MAX_TRIALS = 600;
 /** Default plausible scale range of the sample -> template map (template kept at the average animal's size). */
 export const DEFAULT_SCALE_RANGE: readonly [number, number] = [0.75, 1.33];
 
@@ -263,7 +263,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     let gain = -Infinity;
     for (const inflation of ANNEALING) {
       const grid = inflation > 1 ? prepared.annealGrid : prepared.pairGrid;
-      const r = hardEmRefine(model, grid, points, cur, 'similarity', limits, { ...params, inflation }, fixed, { iterations: 6 });
+      const r = hardEmRefine(model, grid, points, cur, 'similarity', limits, { ...params, inflation }, fixed, { iterations: 4 });
       cur = r.transform;
       gain = r.gain;
     }
@@ -295,10 +295,18 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
   // Affine refinement of the chosen pose (hard EM on the matching, greedy).
   const finalPose = hardEmRefine(model, prepared.pairGrid, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
-  return finish(finalPose);
+  // The other distinct pose modes weigh in on the confidences (model averaging over poses).
+  const others = refined.filter((r) => r !== best);
+  return finish(finalPose, others, best.gain);
 
-  /** Stages 3 and 4 from the chosen affine pose. */
-  function finish(finalPose: Transform): MatchResult {
+  /**
+   * Stages 3 and 4 from the chosen affine pose. `otherModes` are competing
+   * poses with their optimal matching gains; the confidence of a proposal is
+   * its posterior averaged over the modes with weights exp(gain_m - gain_best)
+   * (each mode's evidence approximated by its best matching, both compared
+   * after the same similarity refinement).
+   */
+  function finish(finalPose: Transform, otherModes: readonly { transform: Transform; gain: number }[] = [], bestGain = 0): MatchResult {
     // rho and Lambda for the final posterior, from the chosen pose.
     params = estimateParameters(model, prepared.pairGrid, mapPoints(finalPose, points), jacobianOf(finalPose), params);
     const transform = finalPose;
@@ -342,7 +350,10 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
 
     // Stage 4: assignment and posteriors.
     const gains = pairGains(model, prepared.pairGrid, mapped, jac, params);
-    const proposals = assignAndScore(model, gains, mapped, fixedCell, sample.labels, radius, options.abstainBelow ?? 0);
+    const modes = otherModes
+      .map((m) => ({ gains: pairGains(model, prepared.pairGrid, mapPoints(m.transform, points), jacobianOf(m.transform), params), weight: Math.exp(Math.min(0, m.gain - bestGain)) }))
+      .filter((m) => m.weight > 1e-6);
+    const proposals = assignAndScore(model, gains, mapped, fixedCell, sample.labels, radius, options.abstainBelow ?? 0, modes);
     let hits = 0, score = 0;
     proposals.forEach((p, i) => {
       if (p.label !== null && p.distance !== null && p.distance < radius) hits++;
@@ -622,6 +633,7 @@ function assignAndScore(
   givenLabels: readonly (string | null)[],
   radius: number,
   abstainBelow: number,
+  otherModes: readonly { gains: PairGains; weight: number }[] = [],
 ): Proposal[] {
   const n = mapped.length, K = model.size;
   const fixedCells = new Set(fixedCell.values());
@@ -638,6 +650,24 @@ function assignAndScore(
   // Posterior marginals on the free part only.
   const freeGains = restrictGains(gains, rows, colIndex);
   const marg = sinkhorn(freeGains, rows.length, cols.length, 200, 1e-9);
+  // Posterior per row as a map column -> probability, averaged over the pose modes.
+  const totalWeight = 1 + otherModes.reduce((a, m) => a + m.weight, 0);
+  const rowPosterior: Map<number, number>[] = rows.map(() => new Map());
+  const rowOutlier = new Float64Array(rows.length);
+  const accumulate = (g: PairGains, mg: ReturnType<typeof sinkhorn>, w: number): void => {
+    for (let r = 0; r < rows.length; r++) {
+      rowOutlier[r] += (w * mg.outlier[r]) / totalWeight;
+      for (let j = g.rowStart[r]; j < g.rowStart[r + 1]; j++) {
+        const c = g.cells[j];
+        rowPosterior[r].set(c, (rowPosterior[r].get(c) ?? 0) + (w * mg.pair[j]) / totalWeight);
+      }
+    }
+  };
+  accumulate(freeGains, marg, 1);
+  for (const m of otherModes) {
+    const fg = restrictGains(m.gains, rows, colIndex);
+    accumulate(fg, sinkhorn(fg, rows.length, cols.length, 200, 1e-9), m.weight);
+  }
   const cost: number[][] = rows.map(() => new Array<number>(cols.length).fill(Infinity));
   rows.forEach((i, r) => {
     for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++) {
@@ -661,16 +691,14 @@ function assignAndScore(
   }
   rows.forEach((i, r) => {
     const alts: { label: string; probability: number }[] = [];
-    for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++)
-      alts.push({ label: model.labels[cols[freeGains.cells[j]]], probability: marg.pair[j] });
+    for (const [c, p] of rowPosterior[r]) alts.push({ label: model.labels[cols[c]], probability: p });
     alts.sort((a, b) => b.probability - a.probability || (a.label < b.label ? -1 : 1));
     const top = alts.slice(0, 3);
     const c = assignment ? assignment.rowToColumn[r] : -1;
-    let label: string | null = null, confidence = marg.outlier[r], distance: number | null = null;
+    let label: string | null = null, confidence = rowOutlier[r], distance: number | null = null;
     if (c >= 0) {
       const k = cols[c];
-      let prob = 0;
-      for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++) if (freeGains.cells[j] === c) prob = marg.pair[j];
+      const prob = rowPosterior[r].get(c) ?? 0;
       if (prob >= abstainBelow) {
         label = model.labels[k];
         confidence = prob;

@@ -1,0 +1,55 @@
+/**
+ * Matching speed (a benchmark, not a test; timings depend on the machine and its load):
+ *
+ *   npx tsx test/bench/match-speed.ts [--animals N] [--seed S] [--max-trials T]
+ *
+ * One thread. A 190-cell template (built from the layout itself, so that the
+ * template module's cost is not counted) and samples of 190 points (171 cells
+ * detected + 19 outliers, any rotation, bend, scale), default jitter.
+ * Reports the one-off template preparation (descriptors, density table, cell
+ * grids), then per sample the wall time of matchSample; the median over
+ * samples, and hypotheses (trials) per second of whole-match time.
+ */
+import { matchSample, prepareTemplate } from '../../src/match/match-sample.js';
+import { createRng } from '../../src/random.js';
+import { generateAnimal, generateLayout } from '../support/animals.js';
+import { templateFromTraining } from '../match/support.js';
+
+function argValue(name: string, fallback: string): string {
+  const i = process.argv.indexOf(`--${name}`);
+  return i >= 0 && i + 1 < process.argv.length ? process.argv[i + 1] : fallback;
+}
+
+const count = Number(argValue('animals', '10'));
+const seed = Number(argValue('seed', '11'));
+const maxTrials = argValue('max-trials', '');
+
+const rng = createRng(seed);
+const layout = generateLayout(rng, { cells: 190, dim: 3 });
+const template = templateFromTraining(layout, rng, { members: 25 });
+let start = performance.now();
+prepareTemplate(template);
+const prepSeconds = (performance.now() - start) / 1000;
+
+const times: number[] = [];
+const rates: number[] = [];
+// Warm-up (JIT) on one extra animal, not counted.
+matchSample(template, generateAnimal(layout, rng, 'warmup', { missingFraction: 0.1, outlierFraction: 0.1 }).sample, { rng: createRng(1) });
+for (let a = 0; a < count; a++) {
+  const animal = generateAnimal(layout, rng, `speed${a}`, { missingFraction: 0.1, outlierFraction: 0.1 });
+  start = performance.now();
+  const result = matchSample(template, animal.sample, {
+    rng: createRng(a + 1),
+    ...(maxTrials ? { maxTrials: Number(maxTrials) } : {}),
+  });
+  const seconds = (performance.now() - start) / 1000;
+  times.push(seconds);
+  rates.push(result.trials / seconds);
+  console.log(`${animal.sample.id}: ${animal.sample.coords.length} points, ${seconds.toFixed(3)} s, ${result.trials} trials (${result.stopReason})`);
+}
+const sorted = times.slice().sort((x, y) => x - y);
+const median = sorted.length % 2 ? sorted[sorted.length >> 1] : (sorted[sorted.length / 2 - 1] + sorted[sorted.length / 2]) / 2;
+const meanRate = rates.reduce((s, r) => s + r, 0) / rates.length;
+console.log(`template preparation (once per template): ${prepSeconds.toFixed(2)} s`);
+console.log(`median time to match 190 points to 190 cells, one thread: ${median.toFixed(3)} s (target <= 0.3 s)`);
+console.log(`hypotheses per second of whole-match time: ${meanRate.toFixed(0)}`);
