@@ -12,9 +12,9 @@
  *    - 'icp' / 'cpd': the baselines' own alignment (no search, no refinement).
  * 2. Refinement of the best distinct poses (and their half-turns about the
  *    template's principal axes, which the nearly symmetric shape of a head
- *    leaves ambiguous) by softassign EM: one-to-one posterior correspondences
- *    (softassign.ts), similarity then affine, with annealed cell widths; the
- *    pose with the largest one-to-one matching likelihood wins.
+ *    leaves ambiguous) by hard EM on the one-to-one matching likelihood
+ *    (softassign.ts) with annealed cell widths, then compass search; the mode
+ *    with the largest optimal matching gain wins and is refined affinely.
  * 3. An optional smooth non-rigid correction (refine.ts).
  * 4. One-to-one assignment with a no-label option on the pair gains (the
  *    negative log-likelihood costs of softassign.ts), given labels kept fixed;
@@ -250,7 +250,8 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   }
   if (starts.length === 0) throw new FitError(`sample ${sample.id}: no plausible pose found`);
 
-  // Stage 2: softassign refinement of the candidates (and half-turn variants for the search).
+  // Stage 2: pose modes. The candidates (and half-turns of the best) are refined on the one-to-one
+  // matching likelihood and compared under one fixed (rho, Lambda).
   let params: MatchModelParameters = {
     detection: 0.85,
     outliers: Math.max(1, n - 0.85 * model.size),
@@ -284,13 +285,12 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const finalists = distinctTransforms(screened.map((s) => s.transform), points, FINALISTS, 2 * typicalSpacing(model));
   const greedyObjective = (t: Transform): number => {
     if (!isPlausible(t, affineLimits)) return -Infinity;
-    const g = pairGains(model, prepared.pairGrid, mapPoints(t, points), jacobianOf(t), params);
-    return greedyMatching(g, n, model.size).total;
+    return matchingGain(model, prepared.pairGrid, points, t, params, fixed, false);
   };
   const spacing0 = typicalSpacing(model);
   const refined = finalists.map((t) => {
     const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: spacing0 / 2 }, 'similarity', 150);
-    return { transform: c.transform, gain: exactMatchingGain(pairGains(model, prepared.pairGrid, mapPoints(c.transform, points), jacobianOf(c.transform), params), n, model.size) };
+    return { transform: c.transform, gain: matchingGain(model, prepared.pairGrid, points, c.transform, params, fixed, true) };
   });
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
   // Affine refinement of the chosen pose (hard EM on the matching, greedy).
@@ -375,15 +375,52 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   }
 }
 
-/** max sum g_ik over one-to-one matchings (pairs with g_ik > 0), by the linear assignment solver. */
-function exactMatchingGain(g: PairGains, points: number, cells: number): number {
-  const cost: number[][] = [];
-  for (let i = 0; i < points; i++) {
-    const row = new Array<number>(cells).fill(Infinity);
-    for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) if (g.gains[j] > 0) row[g.cells[j]] = -g.gains[j];
-    cost.push(row);
+/**
+ * The matching gain of the map t: given pairs count with their own gains;
+ * the other points and cells are matched one-to-one (greedy, or optimal when
+ * `exact`).
+ */
+function matchingGain(
+  model: CellModel,
+  grid: CellGrid,
+  points: Points,
+  t: Transform,
+  params: MatchModelParameters,
+  fixed: readonly Pair[],
+  exact: boolean,
+): number {
+  return matchFree(model, grid, points, t, params, fixed, exact).gain;
+}
+
+/** The one-to-one matching of the free points and cells at the map t, given pairs kept (see matchingGain). */
+function matchFree(
+  model: CellModel,
+  grid: CellGrid,
+  points: Points,
+  t: Transform,
+  params: MatchModelParameters,
+  fixed: readonly Pair[],
+  exact: boolean,
+): { gain: number; cellOfPoint: Int32Array } {
+  const n = points.length, K = model.size;
+  const g = pairGains(model, grid, mapPoints(t, points), jacobianOf(t), params);
+  const fg = fixedGain(model, points, t, params, fixed);
+  if (fixed.length === 0) {
+    const m = exact ? exactMatching(g, n, K) : greedyMatching(g, n, K);
+    return { gain: m.total, cellOfPoint: m.cellOfPoint };
   }
-  return -assignWithAbstention(cost, new Array<number>(points).fill(0)).total;
+  const fixedPoint = new Set(fixed.map((f) => f.point));
+  const fixedCells = new Set(fixed.map((f) => f.cell));
+  const rows: number[] = [];
+  for (let i = 0; i < n; i++) if (!fixedPoint.has(i)) rows.push(i);
+  const colIndex = new Int32Array(K);
+  for (let k = 0; k < K; k++) colIndex[k] = fixedCells.has(k) ? -1 : k;
+  const free = restrictGains(g, rows, colIndex);
+  const m = exact ? exactMatching(free, rows.length, K) : greedyMatching(free, rows.length, K);
+  const cellOfPoint = new Int32Array(n).fill(-1);
+  rows.forEach((i, r) => (cellOfPoint[i] = m.cellOfPoint[r]));
+  for (const f of fixed) cellOfPoint[f.point] = f.cell;
+  return { gain: m.total + fg, cellOfPoint };
 }
 
 /** rho and Lambda re-estimated from the one-to-one posterior (three Sinkhorn rounds). */
@@ -404,10 +441,22 @@ function jacobianOf(t: Transform): number {
   return Math.abs(determinantFlat(toFlat(t).a, t.translation.length));
 }
 
-function fixedGain(g: PairGains, fixed: readonly Pair[]): number {
+/**
+ * Sum of the gains g_ik of the given pairs at the map t, computed directly (also
+ * for pairs far outside the cell grid, whose large negative gain must count:
+ * a pose that contradicts the given labels is improbable).
+ */
+function fixedGain(model: CellModel, points: Points, t: Transform, params: MatchModelParameters, fixed: readonly Pair[]): number {
+  if (fixed.length === 0) return 0;
+  const d = model.dim;
+  const infl = params.inflation ?? 1;
+  const base =
+    Math.log(params.detection * jacobianOf(t)) - Math.log(params.outliers * params.outlierDensity) - Math.log(1 - params.detection) - 0.5 * d * Math.log(2 * Math.PI * infl);
   let s = 0;
-  for (const f of fixed)
-    for (let j = g.rowStart[f.point]; j < g.rowStart[f.point + 1]; j++) if (g.cells[j] === f.cell) s += g.gains[j];
+  const mapped = mapPoints(t, fixed.map((f) => points[f.point]));
+  fixed.forEach((f, i) => {
+    s += base - 0.5 * model.logDets[f.cell] - (0.5 * mahalanobis2(model, f.cell, mapped[i])) / infl;
+  });
   return s;
 }
 
@@ -477,74 +526,6 @@ function typicalSpacing(model: CellModel): number {
 }
 
 /**
- * Softassign EM for a map of family `kind`: anneal the cell widths (inflation
- * 2 -> 1), at each step balance the one-to-one posterior (softassign.ts), fit
- * template -> sample on expected cell positions with weights P(i -> k) /
- * (tr S_k / d), invert, and re-estimate rho and Lambda from the posterior.
- */
-export function softassignRefine(
-  model: CellModel,
-  grid: CellGrid,
-  points: Points,
-  start: Transform,
-  kind: Transform['kind'],
-  limits: Plausibility,
-  params: MatchModelParameters,
-  fixed: readonly Pair[],
-  schedule: readonly number[] = [1, 1, 1, 1],
-): { transform: Transform; params: MatchModelParameters } {
-  const d = model.dim, n = points.length, K = model.size;
-  let cur = start;
-  let p = params;
-  const fixedOf = new Map(fixed.map((f) => [f.point, f.cell]));
-  for (const inflation of schedule) {
-    const mapped = mapPoints(cur, points);
-    const g = pairGains(model, grid, mapped, jacobianOf(cur), { ...p, inflation });
-    const mg = sinkhorn(g, n, K, 40);
-    const src: number[][] = [], tgt: number[][] = [], w: number[] = [];
-    let matched = 0;
-    for (let i = 0; i < n; i++) {
-      const fk = fixedOf.get(i);
-      if (fk !== undefined) {
-        src.push(model.meanRows[fk]);
-        tgt.push(points[i] as number[]);
-        w.push(1 / model.isoVar[fk]);
-        matched += 1;
-        continue;
-      }
-      const m = new Array<number>(d).fill(0);
-      let ws = 0, ps = 0;
-      for (let j = g.rowStart[i]; j < g.rowStart[i + 1]; j++) {
-        const k = g.cells[j];
-        const wk = mg.pair[j] / model.isoVar[k];
-        ws += wk;
-        ps += mg.pair[j];
-        for (let a = 0; a < d; a++) m[a] += wk * model.means[k * d + a];
-      }
-      matched += ps;
-      if (ws > 1e-12) {
-        src.push(m.map((v) => v / ws));
-        tgt.push(points[i] as number[]);
-        w.push(ws);
-      }
-    }
-    if (src.length < d + 2) break;
-    let next: Transform;
-    try {
-      next = invertTransform(fitTransform(kind, src, tgt, { weights: w }).transform);
-    } catch (e) {
-      if (e instanceof FitError) break;
-      throw e;
-    }
-    if (!isPlausible(next, limits)) break;
-    cur = next;
-    const detection = Math.min(0.98, Math.max(0.3, matched / K));
-    p = { ...p, detection, outliers: Math.max(0.5, n - matched) };
-  }
-  return { transform: cur, params: p };
-}
-
-/**
  * Hard EM on the matching likelihood (softassign.ts): match one-to-one
  * (greedy, or the exact assignment when `exact`), fit template -> sample on
  * the matched pairs (weights 1 / (tr S_k / d)) and invert; repeat while the
@@ -562,28 +543,8 @@ export function hardEmRefine(
   fixed: readonly Pair[],
   options: { iterations?: number; exact?: boolean } = {},
 ): { transform: Transform; gain: number; iterations: number } {
-  const n = points.length, K = model.size;
-  const fixedPoint = new Set(fixed.map((f) => f.point));
-  const fixedCells = new Set(fixed.map((f) => f.cell));
-  const evaluate = (t: Transform): { gain: number; cellOfPoint: Int32Array } => {
-    const g = pairGains(model, grid, mapPoints(t, points), jacobianOf(t), params);
-    const fg = fixedGain(g, fixed);
-    // Free part: drop fixed points and cells.
-    if (fixed.length > 0) {
-      const rows: number[] = [];
-      for (let i = 0; i < n; i++) if (!fixedPoint.has(i)) rows.push(i);
-      const colIndex = new Int32Array(K);
-      for (let k = 0; k < K; k++) colIndex[k] = fixedCells.has(k) ? -1 : k;
-      const free = restrictGains(g, rows, colIndex);
-      const m = options.exact ? exactMatching(free, rows.length, K) : greedyMatching(free, rows.length, K);
-      const cellOfPoint = new Int32Array(n).fill(-1);
-      rows.forEach((i, r) => (cellOfPoint[i] = m.cellOfPoint[r]));
-      for (const f of fixed) cellOfPoint[f.point] = f.cell;
-      return { gain: m.total + fg, cellOfPoint };
-    }
-    const m = options.exact ? exactMatching(g, n, K) : greedyMatching(g, n, K);
-    return { gain: m.total, cellOfPoint: m.cellOfPoint };
-  };
+  const evaluate = (t: Transform): { gain: number; cellOfPoint: Int32Array } =>
+    matchFree(model, grid, points, t, params, fixed, options.exact ?? false);
   let cur = start;
   let e = evaluate(cur);
   let it = 0;
