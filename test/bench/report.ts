@@ -23,26 +23,33 @@ function spread(s: CaseResult['measurements'][number]['stats']): string {
   return `IQR ${formatMs(s.q1)}-${formatMs(s.q3)}; range ${formatMs(s.min)}-${formatMs(s.max)}; ${s.runs} runs`;
 }
 
-/** The generated block: machine, command, targets, then one section per case. */
-export function renderGenerated(run: RunRecord): string {
+/** The generated block: machine, runs, targets, then one section per case. */
+export function renderGenerated(run: RunRecord, results: readonly CaseResult[]): string {
   const m = run.machine;
   const out: string[] = [BEGIN, ''];
-  out.push(`Run: ${m.date} (UTC), \`${run.command}\`${run.quick ? ' (--quick: a smoke run with few repeats, not for quoting)' : ''}.`);
-  out.push('');
   out.push(
-    `Machine: ${m.cpu}, ${m.nproc} logical CPUs (nproc), ${m.memoryGiB.toFixed(1)} GiB memory, Node ${m.node}, ${m.platform}. ` +
-      `Load average (1, 5, 15 min) at start ${m.loadAverage.map((x) => x.toFixed(2)).join(', ')}, at end ${run.end.loadAverage.map((x) => x.toFixed(2)).join(', ')}.`,
+    `Machine: ${m.cpu}, ${m.nproc} logical CPUs (nproc), ${m.memoryGiB.toFixed(1)} GiB memory, Node ${m.node}, ${m.platform}.`,
   );
   out.push('');
-  const targets = run.results.flatMap((r) => r.ratios.filter((x) => x.target).map((x) => [r.name, x.name, formatRatio(x.value), x.target as string, x.met ? 'met' : '**missed**']));
+  const runs = new Map<string, string[]>();
+  for (const r of results) {
+    const key = r.command ?? run.command;
+    runs.set(key, [...(runs.get(key) ?? []), r.name]);
+  }
+  out.push('Runs (times UTC; each case section gives its own start time and the load average just before it):', '');
+  for (const [command, names] of runs) out.push(`- \`${command}\`: ${names.join(', ')}`);
+  out.push('');
+  if (run.quick) out.push('The last run was a --quick smoke run (few repeats): not for quoting.', '');
+  const targets = results.flatMap((r) => r.ratios.filter((x) => x.target).map((x) => [r.name, x.name, formatRatio(x.value), x.target as string, x.met ? 'met' : '**missed**']));
   if (targets.length) {
     out.push('### Targets', '');
     out.push(markdownTable(['case', 'ratio', 'measured', 'target', ''], targets));
     out.push('');
   }
-  if (run.failures.length) out.push(`Failed cases: ${run.failures.join('; ')}.`, '');
-  for (const r of run.results) {
+  if (run.failures.length) out.push(`Failed cases in the last run: ${run.failures.join('; ')}.`, '');
+  for (const r of results) {
     out.push(`### ${r.name}`, '', r.title, '');
+    if (r.ranAt) out.push(`Ran ${r.ranAt.replace('T', ' ').replace(/\.\d+Z$/, ' UTC')}, load average before it ${(r.loadBefore ?? []).map((x) => x.toFixed(2)).join(', ')}.`, '');
     out.push(
       markdownTable(
         ['variant', 'in-process median', 'spread', 'wall (with start-up)', 'peak RSS'],
@@ -59,8 +66,26 @@ export function renderGenerated(run: RunRecord): string {
     for (const n of r.notes) out.push(`- ${n}`);
     out.push('');
   }
+  // The results themselves, so that a later partial run (--only) can replace its cases and keep the others.
+  out.push(`${DATA_OPEN}${JSON.stringify(results).replace(/-(?=-)/g, '\\u002d')}${DATA_CLOSE}`);
   out.push(END);
   return out.join('\n');
+}
+
+const DATA_OPEN = '<!-- bench-data ';
+const DATA_CLOSE = ' -->';
+
+/** Results embedded in an existing file by renderGenerated (empty when none). */
+export function embeddedResults(existing: string): CaseResult[] {
+  const a = existing.indexOf(DATA_OPEN);
+  if (a < 0) return [];
+  const b = existing.indexOf(DATA_CLOSE, a + DATA_OPEN.length);
+  if (b < 0) return [];
+  try {
+    return JSON.parse(existing.slice(a + DATA_OPEN.length, b)) as CaseResult[];
+  } catch {
+    return [];
+  }
 }
 
 const HEADER = `# Benchmarks
@@ -88,13 +113,25 @@ the load average is printed with the run.
 
 `;
 
-/** The whole file, keeping hand-written text outside the markers of an existing file. */
-export function renderDocs(run: RunRecord, existing?: string): string {
-  const generated = renderGenerated(run);
+/**
+ * The whole file. With an existing file that has the markers, the hand-written
+ * text around them is kept, and cases not run this time keep their earlier
+ * results (each case section says when it ran). `order` lists case names.
+ */
+export function renderDocs(run: RunRecord, existing: string | undefined, order: readonly string[]): string {
+  const merged = new Map<string, CaseResult>();
+  for (const r of existing ? embeddedResults(existing) : []) merged.set(r.name, r);
+  for (const r of run.results) merged.set(r.name, r);
+  const rank = (name: string) => {
+    const i = order.indexOf(name);
+    return i < 0 ? order.length : i;
+  };
+  const results = [...merged.values()].sort((x, y) => rank(x.name) - rank(y.name));
+  const generated = renderGenerated(run, results);
   if (existing && existing.includes(BEGIN) && existing.includes(END)) {
     const a = existing.indexOf(BEGIN);
     const b = existing.indexOf(END) + END.length;
     return existing.slice(0, a) + generated + existing.slice(b);
   }
-  return `${HEADER}## Figures\n\n${generated}\n\n## Where the time goes\n\n(To be written from profiles: see test/bench/README or the report.)\n`;
+  return `${HEADER}## Figures\n\n${generated}\n\n## Where the time goes\n\n(Write from profiles.)\n`;
 }

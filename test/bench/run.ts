@@ -117,6 +117,8 @@ function printCase(r: CaseResult): void {
 async function runParent(args: Args): Promise<void> {
   const cases = selectCases(args.only);
   const machine: MachineInfo = machineInfo();
+  const shown = process.argv.slice(2).filter((a) => a !== '--write-docs').join(' ');
+  const docsCommand = shown ? `npm run bench -- ${shown}` : 'npm run bench';
   const command = `npx tsx test/bench/run.ts ${process.argv.slice(2).join(' ')}`.trim();
   console.log(`cairn benchmarks  ${machine.date}`);
   console.log(`machine: ${machine.cpu}, ${machine.nproc} logical CPUs, ${machine.memoryGiB.toFixed(1)} GiB, Node ${machine.node}, ${machine.platform}`);
@@ -128,6 +130,8 @@ async function runParent(args: Args): Promise<void> {
   try {
     for (const c of cases) {
       process.stderr.write(`running ${c.name} ...\n`);
+      const ranAt = new Date().toISOString();
+      const loadBefore = os.loadavg();
       const childArgs = [...process.execArgv, fileURLToPath(import.meta.url), '--child', c.name, '--tmp', tmp];
       if (args.quick) childArgs.push('--quick');
       if (args.batchSize !== undefined) childArgs.push('--batch-size', String(args.batchSize));
@@ -138,7 +142,7 @@ async function runParent(args: Args): Promise<void> {
         console.log(`\n== ${c.name}: FAILED (exit status ${r.status}); see the messages above`);
         continue;
       }
-      const result = JSON.parse(line.slice(RESULT_TAG.length)) as CaseResult;
+      const result: CaseResult = { ...(JSON.parse(line.slice(RESULT_TAG.length)) as CaseResult), ranAt, loadBefore, command: docsCommand };
       results.push(result);
       printCase(result);
     }
@@ -156,8 +160,7 @@ async function runParent(args: Args): Promise<void> {
   if (args.writeDocs) {
     const file = path.join(root, 'docs', 'benchmarks.md');
     const existing = existsSync(file) ? readFileSync(file, 'utf8') : undefined;
-    const shown = process.argv.slice(2).filter((a) => a !== '--write-docs').join(' ');
-    writeFileSync(file, renderDocs({ machine, end, command: shown ? `npm run bench -- ${shown}` : 'npm run bench', quick: args.quick, results, failures }, existing));
+    writeFileSync(file, renderDocs({ machine, end, command: docsCommand, quick: args.quick, results, failures }, existing, CASES.map((c) => c.name)));
     console.log(`\nwrote ${path.relative(root, file)}`);
   }
   if (failures.length) {

@@ -76,7 +76,7 @@ function matchCase(cells: number, points: number, missing: number, target: boole
         `${count} different test animals, each matched once per method (the spread is across animals); template from 30 training animals labelled at 60%; seeds fixed`,
         'prepareTemplate (template-derived tables, cached per template) is built before timing; time per sample excludes it',
         'the reference row labels with the pose a perfect search could find (similarity fitted on the true correspondences, then the same labelling stage): a ceiling for a similarity pose, not for the non-rigid refinement; its time is not meaningful',
-        'on these animals (cells about 2 um apart, per-cell jitter sd 1-3 um, bend up to 3 um) even the true deformation with the nearest layout cell labels only about 20% of points right: accuracy figures are low for every method and are best read against the reference row',
+        'on these animals (the default setting: cells about 2 um apart, per-cell jitter sd 1-3 um, bend up to 3 um) even an oracle that knows the true deformation labels only about 20% of the cell points right (docs/demo-scenario.md, "How hard is the default setting"): accuracy figures are low for every method by construction and are best read against the reference row',
       ];
       const ransac: Run[] = [], icp: Run[] = [], cpd: Run[] = [], oracle: Run[] = [];
       const cellIndex = new Map(template.cells.map((c, i) => [c.label, i]));

@@ -50,10 +50,18 @@ export interface CaseResult {
   readonly notes: string[];
   /** RSS of the case's process before the case started (Node + tsx + modules), MiB. */
   readonly baselineRssMiB: number;
+  /** When the case ran (ISO time) and the load average (1, 5, 15 min) just before it; set by the runner. */
+  readonly ranAt?: string;
+  readonly loadBefore?: readonly number[];
+  /** The command of the run it came from (set by the runner). */
+  readonly command?: string;
 }
+
+/** What a case returns; the runner adds the rest. */
+export type CaseOutcome = Omit<CaseResult, 'baselineRssMiB' | 'ranAt' | 'loadBefore' | 'command'>;
 
 export interface BenchCase {
   readonly name: string;
   readonly title: string;
-  run(ctx: CaseContext): Promise<Omit<CaseResult, 'baselineRssMiB'>> | Omit<CaseResult, 'baselineRssMiB'>;
+  run(ctx: CaseContext): Promise<CaseOutcome> | CaseOutcome;
 }
