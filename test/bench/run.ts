@@ -170,6 +170,7 @@ async function runParent(args: Args): Promise<void> {
 }
 
 const args = parseArgs(process.argv.slice(2));
+if (args.quick && args.writeDocs) throw new Error('--write-docs needs a full run: a --quick smoke run is not for the docs');
 if (args.list) {
   for (const c of CASES) console.log(`${c.name.padEnd(16)} ${c.title}`);
 } else if (args.child) {
