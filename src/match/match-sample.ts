@@ -111,6 +111,8 @@ export interface PreparedTemplate {
 
 const MAX_INFLATION = 1;
 const ANNEALING = [4, 2, 1];
+/** Rolls about the template's long axis tried from the best pose (360 / ROLL_STEPS degrees apart). */
+const ROLL_STEPS = 12;
 /** Distinct pose modes refined to the end and compared by their optimal matching. */
 const FINALISTS = 3;
 
@@ -277,7 +279,13 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   if (d >= 2) {
     const flips = halfTurns(prepared.axes, prepared.centroid);
     const extra: Transform[] = [];
-    for (const s of starts.slice(0, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
+    // The best pose turned about the template's long axis in steps of 30 degrees, with and without an
+    // end-to-end half-turn (a nearly round cross-section leaves the roll open), and half-turns of the next two.
+    if (starts.length > 0) for (const r of rollsAboutLongAxis(prepared.axes, prepared.centroid, ROLL_STEPS)) {
+      extra.push(composeTransforms(r, starts[0].transform));
+      extra.push(composeTransforms(r, composeTransforms(flips[flips.length > 1 ? 1 : 0], starts[0].transform)));
+    }
+    for (const s of starts.slice(1, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
     candidates = candidates.concat(extra);
   }
   // Screen every candidate with greedy hard EM (similarity), then refine the best three further.
@@ -482,6 +490,38 @@ function halfTurns(axes: number[][], centroid: number[]): Transform[] {
       Array.from({ length: d }, (_, b) => (d === 2 ? (a === b ? -1 : 0) : 2 * u[a] * u[b] - (a === b ? 1 : 0))),
     );
     const translation = centroid.map((v, a) => v - linear[a].reduce((s, x, b) => s + x * centroid[b], 0));
+    out.push({ kind: 'rigid', linear, translation });
+  }
+  return out;
+}
+
+/**
+ * Rotations about the template's first principal axis through its centroid by
+ * 2 pi j / steps, j = 1 .. steps - 1 (in 2-D: rotations about the centroid).
+ * Rodrigues' formula R = I + sin(a) [u]x + (1 - cos(a)) [u]x^2.
+ */
+function rollsAboutLongAxis(axes: number[][], centroid: number[], steps: number): Transform[] {
+  const d = centroid.length;
+  const out: Transform[] = [];
+  const u = axes.map((row) => row[0]);
+  for (let j = 1; j < steps; j++) {
+    const a = (2 * Math.PI * j) / steps;
+    let linear: number[][];
+    if (d === 2) {
+      linear = [
+        [Math.cos(a), -Math.sin(a)],
+        [Math.sin(a), Math.cos(a)],
+      ];
+    } else {
+      const k = [
+        [0, -u[2], u[1]],
+        [u[2], 0, -u[0]],
+        [-u[1], u[0], 0],
+      ];
+      const k2 = k.map((row, r) => row.map((_, c) => k[r][0] * k[0][c] + k[r][1] * k[1][c] + k[r][2] * k[2][c]));
+      linear = k.map((row, r) => row.map((v, c) => (r === c ? 1 : 0) + Math.sin(a) * v + (1 - Math.cos(a)) * k2[r][c]));
+    }
+    const translation = centroid.map((v, r) => v - linear[r].reduce((s, x, c) => s + x * centroid[c], 0));
     out.push({ kind: 'rigid', linear, translation });
   }
   return out;

@@ -20,10 +20,12 @@
  *   confidence >= 0.9 the fraction correct, and the expected calibration error
  *   (10 bins; Guo et al. 2017),
  * and for ransac: accuracy with 0, 4, 8 and 16 given labels (scored on the
- * other true cells), and with the non-rigid correction on and off.
+ * other true cells), and with the non-rigid correction on and off. A first
+ * row gives the accuracy when the affine pose is fitted on the true
+ * correspondences (what a perfect search could reach with this template).
  * Label proposals are proposals to verify, and these are synthetic animals.
  */
-import { fitSimilarity, applyToPoint, transformScale } from '../../src/geometry/index.js';
+import { applyToPoint, fitAffine, fitSimilarity, invertTransform, transformScale } from '../../src/geometry/index.js';
 import { calibrationTable, expectedCalibrationError, type ScoredPoint } from '../../src/evaluate/metrics.js';
 import { sampleSeed } from '../../src/evaluate/cross-validate.js';
 import { labelMappedPoints, matchSample, prepareTemplate, type MatchResult } from '../../src/match/match-sample.js';
@@ -98,6 +100,30 @@ function oracleCorrect(template: Template, layout: Layout, layoutToTemplate: Ret
     if (truth !== null && !skip.has(i) && proposals[i].label === truth) c++;
   });
   void layout;
+  return c;
+}
+
+/**
+ * Accuracy when the affine pose is fitted from the true correspondences
+ * (template means -> true cell points, inverted): separates search failures
+ * from the limits of the template and of an affine pose.
+ */
+function truePoseCorrect(template: Template, animal: Animal, sample: Sample, skip: ReadonlySet<number>): number {
+  const index = new Map(template.cells.map((c, k) => [c.label, k]));
+  const src: number[][] = [], tgt: number[][] = [];
+  animal.truth.forEach((truth, i) => {
+    const k = truth === null ? undefined : index.get(truth);
+    if (k === undefined) return;
+    src.push(template.cells[k].mean.slice());
+    tgt.push(sample.coords[i].slice());
+  });
+  const t = invertTransform(fitAffine(src, tgt).transform);
+  const mapped = sample.coords.map((p) => applyToPoint(t, p));
+  const proposals = labelMappedPoints(template, sample, mapped, Math.pow(transformScale(t), template.dim));
+  let c = 0;
+  animal.truth.forEach((truth, i) => {
+    if (truth !== null && !skip.has(i) && proposals[i].label === truth) c++;
+  });
   return c;
 }
 
@@ -177,6 +203,17 @@ function runCase(spec: CaseSpec): void {
     { name: 'cpd (24 starts)', method: 'cpd', nonRigid: false, given: 0 },
     ...(quick ? [] : [4, 8, 16].map((g) => ({ name: `ransac, ${g} given labels`, method: 'ransac' as const, nonRigid: false, given: g }))),
   ];
+  {
+    // Ceiling with the pose known from the true correspondences (no search).
+    let c = 0, total = 0, oracle = 0;
+    for (const animal of animals) {
+      const sample = { ...animal.sample, labels: animal.sample.labels.map(() => null) };
+      c += truePoseCorrect(template, animal, sample, new Set());
+      oracle += oracleCorrect(template, layout, layoutToTemplate, animal, sample, new Set());
+      total += animal.truth.filter((t) => t !== null).length;
+    }
+    console.log(`${'affine pose from truth'.padEnd(22)} ${pct(c / total).padStart(7)} ${pct(oracle / total).padStart(8)} ${(c / oracle).toFixed(3).padStart(7)}   (pose fitted on the true pairs; no search)`);
+  }
   for (const v of variants) {
     const tally = emptyTally();
     for (const animal of animals) {
@@ -207,6 +244,10 @@ function runCase(spec: CaseSpec): void {
       tally.oracleCorrect += oracleCorrect(template, layout, layoutToTemplate, animal, sample, given);
     }
     console.log(report(v.name, tally));
+    if (v.name === 'ransac') {
+      const bins = calibrationTable(tally.scored).filter((b) => b.count > 0);
+      console.log(`  calibration (ransac): ${bins.map((b) => `[${b.lower.toFixed(1)},${b.upper.toFixed(1)}) n=${b.count} conf ${b.meanConfidence.toFixed(2)} acc ${b.accuracy.toFixed(2)}`).join('; ')}`);
+    }
   }
 }
 
