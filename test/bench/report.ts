@@ -52,7 +52,7 @@ export function renderGenerated(run: RunRecord, results: readonly CaseResult[]):
     if (r.ranAt) out.push(`Ran ${r.ranAt.replace('T', ' ').replace(/\.\d+Z$/, ' UTC')}, load average before it ${(r.loadBefore ?? []).map((x) => x.toFixed(2)).join(', ')}.`, '');
     out.push(
       markdownTable(
-        ['variant', 'in-process median', 'spread', 'wall (with start-up)', 'peak RSS'],
+        ['variant', 'in-process median', 'spread', 'wall (whole process)', 'peak RSS'],
         r.measurements.map((x) => [x.variant, formatMs(x.stats.median), spread(x.stats), x.wall ? formatMs(x.wall.median) : '-', x.peakRssMiB === null ? '-' : `${x.peakRssMiB.toFixed(0)} MiB`]),
       ),
     );
@@ -106,7 +106,8 @@ npm run bench -- --write-docs   # rewrites the generated part of this file
 How to read the figures: times are medians over repeated runs with their
 interquartile range and range. "In-process" excludes process start-up (for a
 peer: timed inside R or Python; for the spawned CLI: wall time minus the CLI's
-own start-up); "wall" is the whole process. Peak memory is the high-water mark
+own start-up); "wall" is the whole process, all of its repeated runs
+included (a peer runs its repeats in one process). Peak memory is the high-water mark
 of resident memory (ru_maxrss) of the process that did the work, so it
 includes the runtime itself. The machine has 2 cores shared with other work;
 the load average is printed with the run.

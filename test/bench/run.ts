@@ -101,7 +101,7 @@ function printCase(r: CaseResult): void {
     m.wall ? formatMs(m.wall.median) : '-',
     m.peakRssMiB === null ? '-' : `${m.peakRssMiB.toFixed(0)} MiB`,
   ]);
-  console.log(textTable(['variant', 'in-process time: median, IQR, range', 'wall (with start-up)', 'peak RSS'], rows));
+  console.log(textTable(['variant', 'in-process time: median, IQR, range', 'wall (whole process)', 'peak RSS'], rows));
   for (const m of r.measurements) {
     const extra = Object.entries(m.extra ?? {});
     if (extra.length) console.log(`  ${m.variant}: ${extra.map(([k, v]) => `${k} ${v}`).join('; ')}`);

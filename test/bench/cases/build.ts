@@ -164,6 +164,7 @@ export const build200: BenchCase = {
         memorySource: '/usr/bin/time -v of the Rscript process',
         extra: {
           version: r.stdout.trim(),
+          'process start-up, loading shapes and reading the CSV (wall minus the timed runs)': `${((r.wallMs - times.reduce((x, y) => x + y, 0)) / 1000).toFixed(2)} s`,
           'mean shape vs cairn defaults (um RMS)': diff.toExponential(2),
           'vs cairn ordinary GPA (um RMS)': diffPlain.toExponential(2),
           'template RMS radius (um)': rmsRadius.toFixed(2),
