@@ -5,6 +5,7 @@
  */
 import { EigenvalueDecomposition, LuDecomposition, Matrix as MlMatrix, SingularValueDecomposition } from 'ml-matrix';
 import { FitError } from '../errors.js';
+import { svdSmall, symmetricEigenSmall } from './small-decompositions.js';
 import type { Matrix, Points } from '../types.js';
 
 /** d x d identity matrix (new array). */
@@ -139,6 +140,7 @@ export function crossCovariance(
  * deficient), s non-negative in descending order.
  */
 export function svd(a: Matrix): { u: number[][]; s: number[]; v: number[][] } {
+  if (a.length <= 3 && a.every((row) => row.length === a.length)) return svdSmall(a);
   const dec = new SingularValueDecomposition(new MlMatrix(a.map((r) => r.slice())), {
     autoTranspose: true,
   });
@@ -150,6 +152,7 @@ export function svd(a: Matrix): { u: number[][]; s: number[]; v: number[][] } {
  * eigenvectors as the columns of `vectors` (ml-matrix, tridiagonal QL).
  */
 export function symmetricEigen(a: Matrix): { values: number[]; vectors: number[][] } {
+  if (a.length <= 3) return symmetricEigenSmall(a);
   const sym = a.map((row, i) => row.map((v, j) => 0.5 * (v + a[j][i])));
   const dec = new EigenvalueDecomposition(new MlMatrix(sym), { assumeSymmetric: true });
   const values = dec.realEigenvalues;
