@@ -260,17 +260,21 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     outlierDensity,
   };
   // Screening refinement: hard EM with annealed cell widths (S_k x 4, x 2, x 1) so that starts a few
-  // micrometres off reach the optimum of their basin.
-  const refineOne = (t: Transform): { transform: Transform; gain: number } => {
-    let cur = t;
-    let gain = -Infinity;
-    for (const inflation of ANNEALING) {
+  // micrometres off reach the optimum of their basin; after each level only the better half of the
+  // candidates (at least FINALISTS + 3) goes on (successive halving).
+  const screen = (ts: readonly Transform[]): { transform: Transform; gain: number }[] => {
+    let pool = ts.map((t) => ({ transform: t, gain: -Infinity }));
+    ANNEALING.forEach((inflation, level) => {
       const grid = inflation > 1 ? prepared.annealGrid : prepared.pairGrid;
-      const r = hardEmRefine(model, grid, points, cur, 'similarity', limits, { ...params, inflation }, fixed, { iterations: 4 });
-      cur = r.transform;
-      gain = r.gain;
-    }
-    return { transform: cur, gain };
+      pool = pool
+        .map((c) => {
+          const r = hardEmRefine(model, grid, points, c.transform, 'similarity', limits, { ...params, inflation }, fixed, { iterations: 4 });
+          return { transform: r.transform, gain: r.gain };
+        })
+        .sort((a, b) => b.gain - a.gain);
+      if (level < ANNEALING.length - 1) pool = pool.slice(0, Math.max(FINALISTS + 3, Math.ceil(pool.length / 2)));
+    });
+    return pool;
   };
   let candidates: Transform[] = starts.map((s) => s.transform);
   if (method !== 'ransac') {
@@ -288,8 +292,8 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     for (const s of starts.slice(1, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
     candidates = candidates.concat(extra);
   }
-  // Screen every candidate with greedy hard EM (similarity), then refine the best three further.
-  const screened = candidates.map((t) => refineOne(t)).sort((a, b) => b.gain - a.gain);
+  // Screen the candidates with greedy hard EM (similarity), then refine the best three distinct modes further.
+  const screened = screen(candidates);
   const finalists = distinctTransforms(screened.map((s) => s.transform), points, FINALISTS, 2 * typicalSpacing(model));
   const greedyObjective = (t: Transform): number => {
     if (!isPlausible(t, affineLimits)) return -Infinity;

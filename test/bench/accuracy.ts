@@ -1,7 +1,7 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|all] [--max-trials T] [--quick]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|all] [--max-trials T] [--quick] [--only NAME]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
@@ -55,6 +55,7 @@ const caseName = argValue('case', 'all');
 const maxTrialsArg = argValue('max-trials', '');
 const maxTrials = maxTrialsArg ? Number(maxTrialsArg) : undefined;
 const quick = process.argv.includes('--quick');
+const only = argValue('only', '');
 
 interface Tally {
   trueCells: number;
@@ -214,7 +215,7 @@ function runCase(spec: CaseSpec): void {
     }
     console.log(`${'affine pose from truth'.padEnd(22)} ${pct(c / total).padStart(7)} ${pct(oracle / total).padStart(8)} ${(c / oracle).toFixed(3).padStart(7)}   (pose fitted on the true pairs; no search)`);
   }
-  for (const v of variants) {
+  for (const v of variants.filter((x) => !only || x.name === only)) {
     const tally = emptyTally();
     for (const animal of animals) {
       // Given labels: a seeded choice of true cells whose labels the matcher sees (scored on the rest).
