@@ -13,8 +13,8 @@
  * 2002). Radii span the local neighbourhood to about half the head, so a
  * descriptor mixes local context with a point's position along the body.
  *
- * Each feature is then replaced by its mid-rank within its own point set,
- * divided by n (values in (0, 1)): a rank transform makes the features
+ * Each feature is then replaced by (R - 1/2) / n, R its rank within its own
+ * point set (ties: mean rank), so values lie in (0, 1): a rank transform makes the features
  * insensitive to the overall density, hence to random missing cells, partial
  * hand labelling and the animal's scale, and limits what outliers can do to
  * the ranks of the true points (they shift them by at most the outlier share).
@@ -83,7 +83,8 @@ export function descriptorSpec(means: Points): DescriptorSpec {
     if (Number.isFinite(best)) nn.push(Math.sqrt(best));
   }
   nn.sort((a, b) => a - b);
-  const spacing = nn.length ? nn[nn.length >> 1] : 1;
+  const half = nn.length >> 1;
+  const spacing = nn.length === 0 ? 1 : nn.length % 2 ? nn[half] : (nn[half - 1] + nn[half]) / 2;
   const lo = Math.max(1e-9, 2 * spacing);
   const hi = Math.max(lo * 1.5, far);
   const radii: number[] = [];
@@ -123,7 +124,10 @@ function upperBound(sorted: Float64Array, v: number): number {
   return lo;
 }
 
-/** Column-wise mid-rank / n of an n x F table (ties share their mean rank). */
+/**
+ * Column-wise (R - 1/2) / n of an n x F table, R the 1-based rank with ties
+ * sharing their mean rank (R's rank(ties.method = "average")); values lie in (0, 1).
+ */
 export function rankNormalize(table: readonly (readonly number[])[]): number[][] {
   const n = table.length;
   if (n === 0) return [];

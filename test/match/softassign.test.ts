@@ -1,0 +1,155 @@
+import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
+import { gaussianLogDensity } from '../../src/geometry/index.js';
+import { buildCellGrid } from '../../src/match/cell-grid.js';
+import { buildCellModel } from '../../src/match/cell-model.js';
+import { greedyMatching, pairGains, sinkhorn, type PairGains } from '../../src/match/softassign.js';
+import { templateFromLayout } from './support.js';
+
+/** A pair table from a dense gain matrix (rows = points); null = no pair. */
+function table(gains: (number | null)[][]): PairGains {
+  const rowStart = [0];
+  const cells: number[] = [], g: number[] = [];
+  for (const row of gains) {
+    row.forEach((v, k) => {
+      if (v === null) return;
+      cells.push(k);
+      g.push(v);
+    });
+    rowStart.push(cells.length);
+  }
+  return { rowStart: Int32Array.from(rowStart), cells: Int32Array.from(cells), gains: Float64Array.from(g), distances: new Float64Array(g.length) };
+}
+
+describe('pairGains', () => {
+  it('equals log(rho J N(y; mu, S)) - log(Lambda u) - log(1 - rho) with S the predictive covariance', () => {
+    const layout = {
+      dim: 3 as const,
+      labels: ['Aa', 'Bb'],
+      positions: [
+        [0, 0, 0],
+        [5, 1, 0],
+      ],
+      jitter: [
+        [
+          [2, 0.3, 0],
+          [0.3, 1, 0.1],
+          [0, 0.1, 1.5],
+        ],
+        [
+          [1, 0, 0],
+          [0, 1, 0],
+          [0, 0, 1],
+        ],
+      ],
+    };
+    const template = templateFromLayout(layout, 4); // predictive covariance = (1 + 1/4) jitter
+    const model = buildCellModel(template);
+    const grid = buildCellGrid(model, 3.5);
+    const params = { detection: 0.8, outliers: 3, outlierDensity: 1e-4 };
+    const y = [0.7, -0.4, 0.9];
+    const g = pairGains(model, grid, [y], 1.3, params);
+    const k = Array.from(g.cells).indexOf(0);
+    expect(k).toBeGreaterThanOrEqual(0);
+    // Hand formula with the geometry module's Gaussian log density (independent code path).
+    const s = layout.jitter[0].map((row) => row.map((v) => v * 1.25));
+    const expected = Math.log(0.8 * 1.3) + gaussianLogDensity(y, [0, 0, 0], s) - Math.log(3 * 1e-4) - Math.log(0.2);
+    expect(g.gains[k]).toBeCloseTo(expected, 10);
+  });
+});
+
+describe('sinkhorn (posterior marginals)', () => {
+  it('gives the exact posterior W / (1 + W) for one point and one cell (hand derivation)', () => {
+    // Two configurations: matched (weight W = e^g) or not (weight 1).
+    const m = sinkhorn(table([[Math.log(3)]]), 1, 1);
+    expect(m.pair[0]).toBeCloseTo(0.75, 12);
+    expect(m.outlier[0]).toBeCloseTo(0.25, 12);
+  });
+
+  it('gives the per-point mixture posterior when no cell is over-claimed', () => {
+    const g = [[Math.log(2), Math.log(0.5), null]];
+    const m = sinkhorn(table(g), 1, 3);
+    // W = (2, 0.5): P = W / (1 + 2.5).
+    expect(m.pair[0]).toBeCloseTo(2 / 3.5, 12);
+    expect(m.pair[1]).toBeCloseTo(0.5 / 3.5, 12);
+    expect(m.outlier[0]).toBeCloseTo(1 / 3.5, 12);
+  });
+
+  it('shares one cell between two points that claim it equally (each at most 1/2)', () => {
+    const m = sinkhorn(table([[Math.log(1000)], [Math.log(1000)]]), 2, 1, 500, 1e-12);
+    expect(m.pair[0]).toBeCloseTo(m.pair[1], 10);
+    expect(m.pair[0] + m.pair[1]).toBeLessThanOrEqual(1 + 1e-9);
+    expect(m.pair[0]).toBeGreaterThan(0.49);
+  });
+
+  it('keeps rows summing to one and columns to at most one (property, fixed seed)', () => {
+    fc.assert(
+      fc.property(
+        fc.array(fc.array(fc.option(fc.double({ min: -5, max: 8, noNaN: true }), { nil: null }), { minLength: 4, maxLength: 4 }), { minLength: 1, maxLength: 6 }),
+        (rows) => {
+          const t = table(rows);
+          const m = sinkhorn(t, rows.length, 4, 2000, 1e-12);
+          const col = new Array(4).fill(0);
+          for (let i = 0; i < rows.length; i++) {
+            let s = m.outlier[i];
+            for (let j = t.rowStart[i]; j < t.rowStart[i + 1]; j++) {
+              s += m.pair[j];
+              col[t.cells[j]] += m.pair[j];
+            }
+            expect(s).toBeCloseTo(1, 9);
+          }
+          for (const c of col) expect(c).toBeLessThanOrEqual(1 + 1e-6);
+        },
+      ),
+      { seed: 42, numRuns: 60 },
+    );
+  });
+});
+
+describe('greedyMatching', () => {
+  /** The textbook greedy: sort pairs by descending gain (stable), take a pair when both ends are free. */
+  function sortedGreedy(rows: (number | null)[][], cells: number): number {
+    const pairs: { i: number; k: number; g: number; j: number }[] = [];
+    let j = 0;
+    rows.forEach((row, i) =>
+      row.forEach((g, k) => {
+        if (g !== null) {
+          if (g > 0) pairs.push({ i, k, g, j });
+          j++;
+        }
+      }),
+    );
+    pairs.sort((a, b) => b.g - a.g || a.j - b.j);
+    const usedI = new Set<number>(), usedK = new Set<number>();
+    let total = 0;
+    for (const p of pairs) {
+      if (usedI.has(p.i) || usedK.has(p.k)) continue;
+      usedI.add(p.i);
+      usedK.add(p.k);
+      total += p.g;
+    }
+    void cells;
+    return total;
+  }
+
+  it('equals the sort-based greedy matching (property, fixed seed, distinct gains)', () => {
+    fc.assert(
+      fc.property(
+        fc.array(fc.array(fc.option(fc.integer({ min: -50, max: 200 }), { nil: null }), { minLength: 5, maxLength: 5 }), { minLength: 1, maxLength: 7 }),
+        (raw) => {
+          // Make gains distinct so that both greedy orders are unambiguous.
+          let c = 0;
+          const rows = raw.map((r) => r.map((v) => (v === null ? null : v + (c++) * 1e-6)));
+          const m = greedyMatching(table(rows), rows.length, 5);
+          expect(m.total).toBeCloseTo(sortedGreedy(rows, 5), 9);
+          const used = new Set<number>();
+          for (const k of m.cellOfPoint) if (k >= 0) {
+            expect(used.has(k)).toBe(false);
+            used.add(k);
+          }
+        },
+      ),
+      { seed: 7, numRuns: 100 },
+    );
+  });
+});
