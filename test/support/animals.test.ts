@@ -123,6 +123,20 @@ describe('generateLayout', () => {
     expect(generateLayout(createRng(11), { namePrefix: 'q' }).labels[0]).toBe(`q${layout3.labels[0]}`);
   });
 
+  it('packs cells into ganglia with gaps when asked: same spacing, far more uneven density than the uniform head', () => {
+    // Unevenness: coefficient of variation of each cell's count of neighbours within 6 um.
+    const cv = (positions: number[][]) => {
+      const counts = positions.map((p) => positions.filter((q) => q !== p && Math.hypot(p[0] - q[0], p[1] - q[1], p[2] - q[2]) < 6).length);
+      const m = counts.reduce((s, c) => s + c, 0) / counts.length;
+      return Math.sqrt(counts.reduce((s, c) => s + (c - m) ** 2, 0) / counts.length) / m;
+    };
+    const uniform = generateLayout(createRng(7));
+    const ganglia = generateLayout(createRng(7), { arrangement: 'ganglia' });
+    expect(ganglia.positions).toHaveLength(190);
+    expect(median(nearestNeighbourDistances(ganglia.positions))).toBeCloseTo(2, 9);
+    expect(cv(ganglia.positions)).toBeGreaterThan(cv(uniform.positions));
+  });
+
   it('rejects a layout of fewer than 2 cells and an empty jitter range', () => {
     expect(() => generateLayout(createRng(1), { cells: 1 })).toThrow(/cells must be an integer >= 2, got 1/);
     expect(() => generateLayout(createRng(1), { jitterRange: [2, 1] })).toThrow(

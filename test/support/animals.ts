@@ -51,6 +51,15 @@ export interface LayoutOptions {
   jitterRange?: [number, number];
   /** Long axis / short axis ratio range (default [3, 4]). */
   elongationRange?: [number, number];
+  /**
+   * How cells fill the head (default 'uniform'): 'uniform' packs them evenly
+   * through the ellipsoid; 'ganglia' packs them into a few compact clusters
+   * (bilateral pairs off the midline plus midline clusters, dorsal and ventral
+   * unlike), leaving gaps between them, as nervous systems group nuclei in
+   * ganglia around a neuropil. The uneven density is what fixes a head's roll
+   * about its long axis when per-cell jitter blurs the fine arrangement.
+   */
+  arrangement?: 'uniform' | 'ganglia';
 }
 
 export interface AnimalOptions {
@@ -200,7 +209,8 @@ export function generateLayout(rng: Rng, options: LayoutOptions = {}): Layout {
   const a = uniform(rng, eLo, eHi) * b;
   const c = uniform(rng, 0.9, 1) * b;
   const semi = dim === 3 ? [a, b, c] : [a, b];
-  const volume = dim === 3 ? (4 / 3) * Math.PI * a * b * c : Math.PI * a * b;
+  const ganglia = (options.arrangement ?? 'uniform') === 'ganglia' ? generateGanglia(rng, semi) : null;
+  const volume = (dim === 3 ? (4 / 3) * Math.PI * a * b * c : Math.PI * a * b) * (ganglia ? gangliaVolumeShare(rng, semi, ganglia) : 1);
   let minDist = 0.7 * Math.pow(volume / n, 1 / dim);
 
   let positions: number[][] = [];
@@ -213,6 +223,7 @@ export function generateLayout(rng: Rng, options: LayoutOptions = {}): Layout {
       let r = 0;
       for (let k = 0; k < dim; k++) r += (p[k] / semi[k]) ** 2;
       if (r > 1) continue;
+      if (ganglia && !insideGanglia(p, ganglia)) continue;
       const md2 = minDist * minDist;
       if (positions.some((q) => dist2(p, q) < md2)) continue;
       positions.push(p);
@@ -244,6 +255,64 @@ export function generateLayout(rng: Rng, options: LayoutOptions = {}): Layout {
 
   const labels = nameCells(positions, options.namePrefix ?? '');
   return { dim, labels, positions, jitter };
+}
+
+/** An axis-aligned ellipsoidal cluster of nuclei: centre and semi-axes. */
+interface Ganglion {
+  centre: number[];
+  radii: number[];
+}
+
+/**
+ * Invented ganglia for the 'ganglia' arrangement, in the unit-short-axis frame
+ * of the head (semi-axes `semi`, long axis x): three bilateral pairs at
+ * random positions along the head (left and right mirror images across y = 0,
+ * each pair dorsal or ventral at random), plus two unpaired clusters on the
+ * midline, one ventral and one dorsal at different positions along x.
+ */
+function generateGanglia(rng: Rng, semi: readonly number[]): Ganglion[] {
+  const dim = semi.length;
+  const [a, b] = semi;
+  const c = dim === 3 ? semi[2] : 0;
+  const out: Ganglion[] = [];
+  const along = (lo: number, hi: number) => uniform(rng, lo, hi) * a;
+  for (let pair = 0; pair < 3; pair++) {
+    const x = along(-0.75 + 0.5 * pair, -0.35 + 0.5 * pair);
+    const y = uniform(rng, 0.35, 0.6) * b;
+    const z = dim === 3 ? (rng() < 0.5 ? -1 : 1) * uniform(rng, 0.1, 0.45) * c : 0;
+    const radii = [uniform(rng, 0.14, 0.24) * a, uniform(rng, 0.3, 0.42) * b, uniform(rng, 0.3, 0.42) * (dim === 3 ? c : b)];
+    for (const side of [1, -1]) out.push({ centre: dim === 3 ? [x, side * y, z] : [x, side * y], radii: radii.slice(0, dim) });
+  }
+  for (const dz of [-1, 1]) {
+    const x = along(dz < 0 ? -0.6 : 0.1, dz < 0 ? -0.1 : 0.6);
+    const centre = dim === 3 ? [x, 0, dz * uniform(rng, 0.5, 0.7) * c] : [x, dz * uniform(rng, 0.5, 0.7) * b];
+    const radii = [uniform(rng, 0.15, 0.25) * a, uniform(rng, 0.3, 0.4) * b, uniform(rng, 0.25, 0.35) * (dim === 3 ? c : b)];
+    out.push({ centre, radii: radii.slice(0, dim) });
+  }
+  return out;
+}
+
+function insideGanglia(p: readonly number[], ganglia: readonly Ganglion[]): boolean {
+  for (const g of ganglia) {
+    let r = 0;
+    for (let k = 0; k < p.length; k++) r += ((p[k] - g.centre[k]) / g.radii[k]) ** 2;
+    if (r <= 1) return true;
+  }
+  return false;
+}
+
+/** Share of the head's ellipsoid covered by the ganglia (Monte Carlo, 4000 draws from the layout's rng). */
+function gangliaVolumeShare(rng: Rng, semi: readonly number[], ganglia: readonly Ganglion[]): number {
+  let inside = 0, total = 0;
+  for (let i = 0; i < 4000; i++) {
+    const p = semi.map((s) => uniform(rng, -s, s));
+    let r = 0;
+    for (let k = 0; k < p.length; k++) r += (p[k] / semi[k]) ** 2;
+    if (r > 1) continue;
+    total++;
+    if (insideGanglia(p, ganglia)) inside++;
+  }
+  return Math.max(0.05, inside / Math.max(1, total));
 }
 
 /**
