@@ -117,7 +117,9 @@ function printCase(r: CaseResult): void {
 async function runParent(args: Args): Promise<void> {
   const cases = selectCases(args.only);
   const machine: MachineInfo = machineInfo();
-  const shown = process.argv.slice(2).filter((a) => a !== '--write-docs').join(' ');
+  // The command as it would be typed for the docs: without --write-docs and without a --json scratch path.
+  const argv = process.argv.slice(2);
+  const shown = argv.filter((a, i) => a !== '--write-docs' && a !== '--json' && argv[i - 1] !== '--json').join(' ');
   const docsCommand = shown ? `npm run bench -- ${shown}` : 'npm run bench';
   const command = `npx tsx test/bench/run.ts ${process.argv.slice(2).join(' ')}`.trim();
   console.log(`cairn benchmarks  ${machine.date}`);
