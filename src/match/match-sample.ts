@@ -415,7 +415,7 @@ function matchFree(
   exact: boolean,
 ): { gain: number; cellOfPoint: Int32Array } {
   const n = points.length, K = model.size;
-  const g = pairGains(model, grid, mapPoints(t, points), jacobianOf(t), params);
+  const g = pairGains(model, grid, mapPoints(t, points), jacobianOf(t), params, true);
   const fg = fixedGain(model, points, t, params, fixed);
   if (fixed.length === 0) {
     const m = exact ? exactMatching(g, n, K) : greedyMatching(g, n, K);

@@ -62,6 +62,8 @@ export interface PairGains {
 /**
  * Gains g_ik for all pairs within 3.5 standard deviations (cells from the
  * grid, which must have been built with radius >= 3.5 * sqrt(inflation)).
+ * With `positiveOnly`, pairs with g_ik <= 0 are left out (they can never be
+ * matched; enough for the matchings, not for the posterior).
  */
 export function pairGains(
   model: CellModel,
@@ -69,6 +71,7 @@ export function pairGains(
   mapped: Points,
   jacobian: number,
   params: MatchModelParameters,
+  positiveOnly = false,
 ): PairGains {
   const d = model.dim;
   const infl = params.inflation ?? 1;
@@ -111,6 +114,8 @@ export function pairGains(
           }
         }
         if (e2 > limit) continue;
+        const gain = base - 0.5 * logDets[k] - half * e2;
+        if (positiveOnly && !(gain > 0)) continue;
         if (used === capacity) {
           capacity *= 2;
           const nc = new Int32Array(capacity), ng = new Float64Array(capacity), nd = new Float64Array(capacity);
@@ -122,7 +127,7 @@ export function pairGains(
           dists = nd;
         }
         cells[used] = k;
-        gains[used] = base - 0.5 * logDets[k] - half * e2;
+        gains[used] = gain;
         dists[used] = e2;
         used++;
       }
@@ -205,65 +210,54 @@ export function greedyMatchingGain(pairs: PairGains, points: number, cells: numb
  * weighted bipartite matching; Avis 1983).
  */
 export function greedyMatching(pairs: PairGains, points: number, cells: number): HardMatching {
-  // Locally dominant edges (Preis 1999): a pair that is the best remaining
-  // option of both its point and its cell belongs to the greedy matching; match
-  // all such pairs, drop their point and cell, repeat. Ties go to the lower
-  // pair index, as in a stable sort by descending gain.
+  // Pairs with positive gain in order of descending gain (ties: lower pair index first), by a bucket
+  // sort on the gain followed by an insertion sort inside each bucket; then the textbook greedy.
   const { rowStart, cells: cellOf, gains } = pairs;
+  const P = gains.length;
+  let count = 0, top = 0;
+  for (let j = 0; j < P; j++)
+    if (gains[j] > 0) {
+      count++;
+      if (gains[j] > top) top = gains[j];
+    }
   const cellOfPoint = new Int32Array(points).fill(-1);
-  const pointDone = new Uint8Array(points), cellDone = new Uint8Array(cells);
-  const bestOfPoint = new Int32Array(points);
-  const bestOfCell = new Int32Array(cells);
-  const bestCellGain = new Float64Array(cells);
+  if (count === 0) return { total: 0, cellOfPoint };
+  const rowOf = new Int32Array(P);
+  for (let i = 0; i < points; i++) for (let j = rowStart[i]; j < rowStart[i + 1]; j++) rowOf[j] = i;
+  const B = Math.max(16, count);
+  const scale = (B - 1) / top;
+  const bucketStart = new Int32Array(B + 1);
+  const bucketOf = new Int32Array(P);
+  for (let j = 0; j < P; j++) {
+    if (!(gains[j] > 0)) continue;
+    const b = Math.min(B - 1, Math.floor((top - gains[j]) * scale));
+    bucketOf[j] = b;
+    bucketStart[b + 1]++;
+  }
+  for (let b = 0; b < B; b++) bucketStart[b + 1] += bucketStart[b];
+  const order = new Int32Array(count);
+  const fill = bucketStart.slice(0, B);
+  for (let j = 0; j < P; j++) if (gains[j] > 0) order[fill[bucketOf[j]]++] = j;
+  for (let b = 0; b < B; b++) {
+    for (let x = bucketStart[b] + 1; x < bucketStart[b + 1]; x++) {
+      const j = order[x];
+      let y = x - 1;
+      while (y >= bucketStart[b] && (gains[order[y]] < gains[j] || (gains[order[y]] === gains[j] && order[y] > j))) {
+        order[y + 1] = order[y];
+        y--;
+      }
+      order[y + 1] = j;
+    }
+  }
+  const usedCell = new Uint8Array(cells);
   let total = 0;
-  for (;;) {
-    bestOfCell.fill(-1);
-    let active = false;
-    for (let i = 0; i < points; i++) {
-      bestOfPoint[i] = -1;
-      if (pointDone[i]) continue;
-      let bj = -1, bg = 0;
-      for (let j = rowStart[i]; j < rowStart[i + 1]; j++) {
-        const g = gains[j];
-        if (g > bg && !cellDone[cellOf[j]]) {
-          bg = g;
-          bj = j;
-        }
-      }
-      if (bj < 0) {
-        pointDone[i] = 1;
-        continue;
-      }
-      active = true;
-      bestOfPoint[i] = bj;
-    }
-    if (!active) break;
-    // Each cell's best pair among all remaining pairs (not only the points' favourites).
-    for (let i = 0; i < points; i++) {
-      if (pointDone[i]) continue;
-      for (let j = rowStart[i]; j < rowStart[i + 1]; j++) {
-        const k = cellOf[j], g = gains[j];
-        if (g <= 0 || cellDone[k]) continue;
-        if (bestOfCell[k] < 0 || g > bestCellGain[k]) {
-          bestOfCell[k] = j;
-          bestCellGain[k] = g;
-        }
-      }
-    }
-    let matched = 0;
-    for (let i = 0; i < points; i++) {
-      const j = bestOfPoint[i];
-      if (j < 0) continue;
-      const k = cellOf[j];
-      if (bestOfCell[k] !== j) continue;
-      cellOfPoint[i] = k;
-      pointDone[i] = 1;
-      cellDone[k] = 1;
-      total += gains[j];
-      matched++;
-    }
-    if (matched === 0) break; // cannot happen: the globally heaviest remaining pair is locally dominant
+  for (let x = 0; x < count; x++) {
+    const j = order[x];
+    const i = rowOf[j], k = cellOf[j];
+    if (cellOfPoint[i] >= 0 || usedCell[k]) continue;
+    cellOfPoint[i] = k;
+    usedCell[k] = 1;
+    total += gains[j];
   }
   return { total, cellOfPoint };
 }
-
