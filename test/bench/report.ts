@@ -90,7 +90,8 @@ export function embeddedResults(existing: string): CaseResult[] {
 
 const HEADER = `# Benchmarks
 
-Speed and accuracy of cairn measured side by side with peers in one run:
+Speed and accuracy of cairn measured side by side with peers, each case
+running ours and its peer back to back in the same run:
 R \`shapes::procGPA\` for building, \`scipy.optimize.linear_sum_assignment\` for
 the assignment, and our own ICP and CPD baselines for matching. All data are
 seeded synthetic animals (test/support/animals.ts); nothing here is real data.
@@ -98,7 +99,7 @@ seeded synthetic animals (test/support/animals.ts); nothing here is real data.
 Reproduce:
 
 \`\`\`sh
-npm run bench:peers        # once: Debian's r-base-core, r-cran-shapes, python3-scipy (scripts/install-bench-peers.sh)
+npm run bench:peers        # once (= bash scripts/install-bench-peers.sh): Debian's r-base-core, r-cran-shapes, python3-scipy
 npm run bench              # all cases; add -- --quick for a smoke run, -- --only build for one group
 npm run bench -- --write-docs   # rewrites the generated part of this file
 \`\`\`
