@@ -9,6 +9,8 @@
  *   --json FILE        also write every result as JSON
  *   --list             list the cases and exit
  *
+ * Environment: CAIRN_BENCH_SKIP_PEERS=1 skips R and Python (as if absent).
+ *
  * Each case runs in its own Node process (same loader as this one), so its
  * peak memory (ru_maxrss) is its own. The parent prints a table per case and
  * the ratios against the baseline measured in the same run.
@@ -171,12 +173,23 @@ async function runParent(args: Args): Promise<void> {
   }
 }
 
-const args = parseArgs(process.argv.slice(2));
-if (args.quick && args.writeDocs) throw new Error('--write-docs needs a full run: a --quick smoke run is not for the docs');
-if (args.list) {
-  for (const c of CASES) console.log(`${c.name.padEnd(16)} ${c.title}`);
-} else if (args.child) {
-  await runChild(args);
-} else {
-  await runParent(args);
+async function main(): Promise<void> {
+  const args = parseArgs(process.argv.slice(2));
+  if (args.quick && args.writeDocs) throw new Error('--write-docs needs a full run: a --quick smoke run is not for the docs');
+  if (args.list) {
+    for (const c of CASES) console.log(`${c.name.padEnd(16)} ${c.title}`);
+  } else if (args.child) {
+    await runChild(args);
+  } else {
+    selectCases(args.only); // fail on unknown names before anything runs
+    await runParent(args);
+  }
+}
+
+try {
+  await main();
+} catch (e) {
+  process.stderr.write(`bench: ${e instanceof Error ? e.message : String(e)}\n`);
+  if (process.argv.includes('--child') && e instanceof Error && e.stack) process.stderr.write(`${e.stack}\n`);
+  process.exitCode = 2;
 }

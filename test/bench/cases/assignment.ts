@@ -9,7 +9,7 @@ import path from 'node:path';
 import { solveAssignment } from '../../../src/match/assignment.js';
 import { createRng } from '../../../src/random.js';
 import { peakRssMiB, spawnMeasured, summarize, timeRepeated } from '../harness.js';
-import { hasScipy, INSTALL_HINT, PYTHON } from './peers.js';
+import { hasScipy, missingReason, PYTHON } from './peers.js';
 import type { BenchCase, Measurement, Ratio } from './types.js';
 
 /** n x n costs uniform in [0, 1) from a seeded generator. */
@@ -35,7 +35,7 @@ function assignmentCase(n: number, target: boolean): BenchCase {
       const ratios: Ratio[] = [];
       const notes = [`costs uniform in [0, 1), ${matrices.length} matrices cycled over the runs (same matrices for both)`];
       if (!hasScipy()) {
-        notes.push(`scipy skipped: ${PYTHON} cannot import scipy.optimize; ${INSTALL_HINT}`);
+        notes.push(`scipy skipped: ${missingReason(`${PYTHON} with scipy.optimize`)}`);
         return { name, title: this.title, measurements, ratios, notes };
       }
       const files = matrices.map((c, k) => {

@@ -10,7 +10,7 @@ import { buildTemplate, DEFAULT_SETTINGS, type BuildOptions } from '../../../src
 import type { Sample } from '../../../src/types.js';
 import { peakRssMiB, spawnMeasured, summarize, timeRepeated } from '../harness.js';
 import { buildData } from './data.js';
-import { hasRShapes, INSTALL_HINT, RSCRIPT } from './peers.js';
+import { hasRShapes, missingReason, RSCRIPT } from './peers.js';
 import type { BenchCase, Measurement, Ratio } from './types.js';
 
 function centred(points: readonly (readonly number[])[]): number[][] {
@@ -120,7 +120,7 @@ export const build200: BenchCase = {
     ];
     const ratios: Ratio[] = [];
     if (!hasRShapes()) {
-      notes.push(`R shapes::procGPA skipped: ${RSCRIPT} with library(shapes) not available; ${INSTALL_HINT}`);
+      notes.push(`R shapes::procGPA skipped: ${missingReason(`${RSCRIPT} with library(shapes)`)}`);
       return { name: this.name, title: this.title, measurements, ratios, notes };
     }
     const file = path.join(ctx.tmp, 'build-200x150.csv');

@@ -8,18 +8,26 @@ import { programWorks } from '../harness.js';
 export const RSCRIPT = '/usr/bin/Rscript';
 export const PYTHON = '/usr/bin/python3';
 
+/** CAIRN_BENCH_SKIP_PEERS=1 runs ours only (and shows the skip messages). */
+const skipAll = process.env.CAIRN_BENCH_SKIP_PEERS === '1';
+
+/** Why a peer is missing, for the skip message. */
+export function missingReason(what: string): string {
+  return skipAll ? 'CAIRN_BENCH_SKIP_PEERS=1 is set' : `${what} not available; ${INSTALL_HINT}`;
+}
+
 let rShapes: boolean | undefined;
 let scipy: boolean | undefined;
 
 /** Rscript present and `library(shapes)` loads. */
 export function hasRShapes(): boolean {
-  rShapes ??= programWorks(RSCRIPT, ['-e', 'suppressPackageStartupMessages(library(shapes))']);
+  rShapes ??= !skipAll && programWorks(RSCRIPT, ['-e', 'suppressPackageStartupMessages(library(shapes))']);
   return rShapes;
 }
 
 /** /usr/bin/python3 present and `import scipy.optimize` works. */
 export function hasScipy(): boolean {
-  scipy ??= programWorks(PYTHON, ['-c', 'import scipy.optimize']);
+  scipy ??= !skipAll && programWorks(PYTHON, ['-c', 'import scipy.optimize']);
   return scipy;
 }
 
