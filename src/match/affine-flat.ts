@@ -5,7 +5,12 @@
  */
 import { svd } from '../geometry/index.js';
 import type { Transform } from '../types.js';
-import type { FlatAffine } from './scoring.js';
+
+/** An affine map y = A x + t with A flattened row-major (d*d) and t (d). */
+export interface FlatAffine {
+  readonly a: Float64Array;
+  readonly t: Float64Array;
+}
 
 export function toFlat(transform: Transform): FlatAffine {
   const d = transform.translation.length;

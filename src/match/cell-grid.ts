@@ -1,5 +1,5 @@
 /**
- * A uniform voxel grid over the template cells for the scoring hot loop: each
+ * A uniform voxel grid over the template cells for the pair-gain hot loop: each
  * voxel lists every cell whose hit region can reach into it, so that finding
  * the cells a transformed point may hit is one array lookup.
  *
@@ -7,7 +7,7 @@
  * the ball of radius nu sqrt(lambda_max(S_k)) around mu_k; cell k is listed in
  * every voxel whose box is within that radius of mu_k (box-to-point distance,
  * Arvo 1990), so lookups never miss a hit. A general k-d tree (PointIndex)
- * answers the same question; the grid is used here only because the scoring
+ * answers the same question; the grid is used here only because the pair-gain
  * loop runs it hundreds of thousands of times per sample.
  */
 import { symmetricEigen } from '../geometry/index.js';

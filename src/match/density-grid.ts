@@ -21,7 +21,7 @@
  * of the template is not rewarded.
  */
 import type { CellModel } from './cell-model.js';
-import type { FlatAffine } from './scoring.js';
+import type { FlatAffine } from './affine-flat.js';
 
 export interface DensityGrid {
   readonly dim: number;

@@ -1,9 +1,10 @@
 /**
  * Robust search for the pose of an unlabelled sample: guided, geometrically
  * consistent RANSAC (Fischler & Bolles 1981) with progressive sampling
- * (PROSAC; Chum & Matas 2005), MSAC scoring (Torr & Zisserman 2000; see
- * scoring.ts) and local optimisation of every new best (LO-RANSAC; Chum,
- * Matas & Kittler 2003).
+ * (PROSAC; Chum & Matas 2005). The score and the local optimisation of every
+ * new best (LO-RANSAC; Chum, Matas & Kittler 2003) come from the caller
+ * (`PoseObjective`; matchSample uses the MLESAC likelihood of
+ * density-grid.ts and EM steps of refine.ts).
  *
  * One hypothesis is D + 1 point-cell pairs (i_1, k_1) ... (i_{D+1}, k_{D+1}):
  *
@@ -30,9 +31,11 @@
  * Stopping: after trial t with best hit fraction eps = hits / n, the chance
  * that one trial draws an all-correct set is estimated as
  *   P = eps_1 prod_{j=2}^{D+1} min(1, eps / mbar_j)
- * where eps_1 is the share of the candidate pool that the best pose calls a
- * hit and mbar_j the mean number of consistent candidates offered at step j
- * (a correct earlier choice leaves the right cell among them). The search stops
+ * where eps_1 = hits / N is the share of the N-pair candidate pool that can be
+ * correct (each inlier point contributes at most one correct pair; a caller
+ * may count agreements exactly through `poolAgreement`) and mbar_j the mean
+ * number of consistent candidates offered at step j (a correct earlier choice
+ * leaves the right cell among them). The search stops
  * once t >= log(1 - eta) / log(1 - P) (Fischler & Bolles 1981; Hartley &
  * Zisserman 2004, eq. 4.18) with eta = 0.99, after at least `minTrials`, and
  * always at `maxTrials`.
@@ -41,9 +44,8 @@ import { FitError } from '../errors.js';
 import { fitTransform, invertTransform } from '../geometry/index.js';
 import type { Rng } from '../random.js';
 import type { Points, Transform } from '../types.js';
-import { fromFlat, isPlausible, toFlat, type Plausibility } from './affine-flat.js';
+import { isPlausible, type Plausibility } from './affine-flat.js';
 import type { CellModel } from './cell-model.js';
-import type { HitScorer } from './scoring.js';
 
 export interface Pair {
   readonly point: number;
@@ -127,34 +129,6 @@ export function fitPairs(
     if (e instanceof FitError) return null;
     throw e;
   }
-}
-
-/**
- * Local optimisation: re-fit on the hits of the current pose, rescore, repeat
- * while the score improves (at most `iterations` times).
- */
-export function localOptimise(
-  scorer: HitScorer,
-  points: Points,
-  start: PoseEstimate,
-  kind: Transform['kind'],
-  limits: Plausibility,
-  iterations = 6,
-): PoseEstimate {
-  let best = start;
-  scorer.score(toFlat(best.transform));
-  for (let it = 0; it < iterations; it++) {
-    const pairs = scorer.hitPairs();
-    if (pairs.length < scorer.model.dim + 1) break;
-    const t = fitPairs(scorer.model, points, pairs, kind, limits);
-    if (!t) break;
-    const s = scorer.score(toFlat(t));
-    if (s.score <= best.score + 1e-9) break;
-    best = { transform: t, score: s.score, hits: s.hits };
-  }
-  // Leave the scorer's state on the returned pose.
-  scorer.score(toFlat(best.transform));
-  return best;
 }
 
 /** Per-point candidate cells (best first), as from rankCandidates. */
@@ -380,4 +354,3 @@ export function searchPose(
   };
 }
 
-export { fromFlat };
