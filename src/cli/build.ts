@@ -7,7 +7,7 @@
  * Shape: read (src/io) -> buildTemplate (src/template) -> stamp time -> write -> print.
  * Also exports `handLabelCheckSection`, the hand-label part of `cairn check`.
  */
-import { InvalidArgumentError, Option, type Command } from 'commander';
+import { Option, type Command } from 'commander';
 import { parseVoxelSize, readSamples } from '../io/sample-reader.js';
 import { serializeTemplate } from '../io/template-file.js';
 import { writeFileAtomic } from '../io/write.js';
@@ -33,42 +33,7 @@ export interface TemplateCommandOptions {
   readonly voxelSize?: number[];
 }
 
-/** Commander parser: a finite number > 0 (or >= 0 with allowZero). */
-export function positiveNumberOption(allowZero = false) {
-  return (text: string): number => {
-    const v = Number(text);
-    if (text.trim() === '' || !Number.isFinite(v) || v < 0 || (!allowZero && v === 0)) {
-      throw new InvalidArgumentError(`expected a ${allowZero ? 'non-negative' : 'positive'} number, got "${text}"`);
-    }
-    return v;
-  };
-}
-
-/** Commander parser: an integer >= min. */
-export function integerOption(min: number) {
-  return (text: string): number => {
-    const v = Number(text);
-    if (text.trim() === '' || !Number.isInteger(v) || v < min) throw new InvalidArgumentError(`expected an integer >= ${min}, got "${text}"`);
-    return v;
-  };
-}
-
-/** Commander parser for a probability strictly between 0 and 1. */
-export function probabilityArgument(text: string): number {
-  const p = Number(text);
-  if (text.trim() === '' || !(p > 0 && p < 1)) throw new InvalidArgumentError(`expected a probability strictly between 0 and 1, got "${text}"`);
-  return p;
-}
-
-/** Commander parser for --voxel-size. */
-export function voxelSizeArgument(text: string): number[] {
-  try {
-    return parseVoxelSize(text);
-  } catch (e) {
-    if (e instanceof UsageError) throw new InvalidArgumentError(e.message);
-    throw e;
-  }
-}
+import { integerOption, positiveNumberOption, probabilityOption, voxelSizeOption } from './options.js';
 
 /** The library options named on the command line (undefined ones keep their defaults). */
 export function buildOptionsFrom(o: TemplateCommandOptions): BuildOptions {
@@ -92,12 +57,12 @@ export function addTemplateOptions(cmd: Command): Command {
     .addOption(new Option('--alignment <kind>', 'transform family that aligns each sample (default similarity)').choices(['similarity', 'rigid', 'affine']))
     .option('--min-count <n>', 'cells seen by fewer samples are marked sparse (default 5)', integerOption(1))
     .option('--prior-strength <n>', 'pseudo-observations of the pooled covariance in each cell covariance (default 10)', positiveNumberOption())
-    .option('--flag-probability <p>', 'tail probability of the cell\'s predictive distribution below which a hand label is flagged (default 0.001)', probabilityArgument)
+    .option('--flag-probability <p>', 'tail probability of the cell\'s predictive distribution below which a hand label is flagged (default 0.001)', probabilityOption)
     .option('--no-timestamp', 'leave the creation time out of the template (reproducible bytes)')
     .option('--force', 'replace the output file when it exists')
     .option('--json', 'print the summary as JSON on stdout')
     .option('--quiet', 'print nothing on success (warnings still go to stderr)')
-    .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis; coordinates are multiplied by it', voxelSizeArgument);
+    .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis; coordinates are multiplied by it', voxelSizeOption);
 }
 
 function plural(n: number, word: string): string {

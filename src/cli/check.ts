@@ -9,11 +9,12 @@
  * or JSON. Further checks (for example suspicious hand labels) add a
  * `CheckSection` to `report.sections`; both renderers print sections generically.
  */
-import { InvalidArgumentError, type Command } from 'commander';
+import type { Command } from 'commander';
 import { UsageError, type InputError } from '../errors.js';
 import { parseVoxelSize, readSamplesCollect, type SampleReadResult } from '../io/sample-reader.js';
 import type { Sample } from '../types.js';
 import { handLabelCheckSection } from './build.js';
+import { voxelSizeOption } from './options.js';
 import { CommandFailed, type CliIo } from './main.js';
 
 export interface CheckOptions {
@@ -140,16 +141,6 @@ function formatTable(header: readonly string[], rows: readonly (readonly string[
       .join('  ')
       .trimEnd() + '\n';
   return line(header) + rows.map(line).join('');
-}
-
-/** Commander argument parser for --voxel-size: usage errors become commander's invalid-argument errors (exit 2). */
-export function voxelSizeOption(text: string): number[] {
-  try {
-    return parseVoxelSize(text);
-  } catch (e) {
-    if (e instanceof UsageError) throw new InvalidArgumentError(e.message);
-    throw e;
-  }
 }
 
 /** Run `check` on the given paths and print the report; throws CommandFailed after printing when there are errors. */

@@ -8,7 +8,7 @@
  *
  * Shape: read (src/io) -> compareTemplates (src/compare) -> render -> write files -> print.
  */
-import { InvalidArgumentError, Option, type Command } from 'commander';
+import { Option, type Command } from 'commander';
 import { compareTemplates, type TemplateComparison } from '../compare/compare.js';
 import { compareFigureSvg } from '../compare/figure.js';
 import { comparisonCautions, renderCompareHtml } from '../compare/report.js';
@@ -19,6 +19,7 @@ import { createRng } from '../random.js';
 import { fixed } from '../report/svg/common.js';
 import type { Template } from '../types.js';
 import { VERSION } from '../version.js';
+import { integerOption, positiveNumberOption, probabilityOption } from './options.js';
 import type { CliIo, CommandRegistrar } from './main.js';
 
 export interface CompareCliOptions {
@@ -36,24 +37,6 @@ export interface CompareCliOptions {
   readonly arrowScale: number;
   readonly ellipseProbability: number;
   readonly force?: boolean;
-}
-
-function probability(text: string): number {
-  const p = Number(text);
-  if (text.trim() === '' || !(p > 0 && p < 1)) throw new InvalidArgumentError(`expected a number strictly between 0 and 1, got "${text}"`);
-  return p;
-}
-
-function nonNegativeInteger(text: string): number {
-  const v = Number(text);
-  if (text.trim() === '' || !Number.isInteger(v) || v < 0) throw new InvalidArgumentError(`expected an integer >= 0, got "${text}"`);
-  return v;
-}
-
-function positiveNumber(text: string): number {
-  const v = Number(text);
-  if (text.trim() === '' || !(v > 0) || !Number.isFinite(v)) throw new InvalidArgumentError(`expected a positive number, got "${text}"`);
-  return v;
 }
 
 function formatP(p: number): string {
@@ -188,18 +171,18 @@ export function registerCompare(program: Command, io: CliIo): void {
         .choices(['template', 'sample'])
         .default('template'),
     )
-    .addOption(new Option('--level <p>', 'confidence level of the displacement-length interval').argParser(probability).default(0.95))
-    .addOption(new Option('--alpha <q>', 'q-value below which a cell counts as different').argParser(probability).default(0.05))
+    .addOption(new Option('--level <p>', 'confidence level of the displacement-length interval').argParser(probabilityOption).default(0.95))
+    .addOption(new Option('--alpha <q>', 'q-value below which a cell counts as different').argParser(probabilityOption).default(0.05))
     .addOption(
       new Option('--permutations <n>', "permutations of the overall shape test (needs members' positions in both templates; 0 = none)")
-        .argParser(nonNegativeInteger)
+        .argParser(integerOption(0))
         .default(999),
     )
-    .addOption(new Option('--seed <n>', 'seed for the permutations').argParser(nonNegativeInteger).default(1))
+    .addOption(new Option('--seed <n>', 'seed for the permutations').argParser(integerOption(0)).default(1))
     .option('--svg <file>', 'write the figure (three projections, arrows coloured by q-value, ellipses) to this SVG file')
     .option('--html <file>', 'write the self-contained HTML report to this file')
-    .addOption(new Option('--arrow-scale <k>', 'draw arrows k times their length in the figure').argParser(positiveNumber).default(1))
-    .addOption(new Option('--ellipse-probability <p>', 'probability held by each ellipse in the figure').argParser(probability).default(0.95))
+    .addOption(new Option('--arrow-scale <k>', 'draw arrows k times their length in the figure').argParser(positiveNumberOption()).default(1))
+    .addOption(new Option('--ellipse-probability <p>', 'probability held by each ellipse in the figure').argParser(probabilityOption).default(0.95))
     .option('--force', 'overwrite the --svg / --html files when they exist')
     .action((pathA: string, pathB: string, opts: CompareCliOptions) => {
       runCompare(pathA, pathB, opts, io);

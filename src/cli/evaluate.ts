@@ -5,7 +5,7 @@
  *
  * Shape: read (src/io) -> [chooseHitRadius] -> crossValidate (src/evaluate) -> render -> print.
  */
-import { InvalidArgumentError, Option, type Command } from 'commander';
+import { Option, type Command } from 'commander';
 import { readSamples } from '../io/sample-reader.js';
 import { formatCsv, writeFileAtomic } from '../io/write.js';
 import { crossValidate, type CrossValidationResult } from '../evaluate/cross-validate.js';
@@ -14,7 +14,7 @@ import type { AccuracyReport } from '../evaluate/metrics.js';
 import { crossValidationScheme, renderEvaluateHtml } from '../report/evaluate-report.js';
 import { fixed } from '../report/svg/common.js';
 import { VERSION } from '../version.js';
-import { integerOption, voxelSizeArgument } from './build.js';
+import { hitRadiusOption, integerOption, voxelSizeOption } from './options.js';
 import type { CliIo, CommandRegistrar } from './main.js';
 
 export interface EvaluateOptions {
@@ -23,20 +23,12 @@ export interface EvaluateOptions {
   readonly method: 'ransac' | 'icp' | 'cpd';
   readonly hitRadius?: number | 'auto';
   readonly maxTrials?: number;
-  readonly nonrigid: boolean;
+  readonly nonrigid?: boolean;
   readonly json?: boolean;
   readonly csv?: boolean;
   readonly html?: string;
   readonly force?: boolean;
   readonly voxelSize?: number[];
-}
-
-/** Commander parser for --hit-radius: a positive number or "auto". */
-export function hitRadiusOption(text: string): number | 'auto' {
-  if (text === 'auto') return 'auto';
-  const v = Number(text);
-  if (text.trim() === '' || !(v > 0) || !Number.isFinite(v)) throw new InvalidArgumentError(`expected a positive number or "auto", got "${text}"`);
-  return v;
 }
 
 const pct = (v: number) => `${fixed(100 * v, 1)}%`;
@@ -115,12 +107,13 @@ export function registerEvaluate(program: Command, io: CliIo): void {
     .addOption(new Option('--method <name>', 'matching method').choices(['ransac', 'icp', 'cpd']).default('ransac'))
     .option('--hit-radius <r>', 'hit radius in Mahalanobis units, or "auto" to choose it by cross-validation', hitRadiusOption)
     .option('--max-trials <n>', 'cap on hypotheses per sample', integerOption(1))
-    .option('--no-nonrigid', 'skip the smooth non-rigid correction after the affine fit')
+    .option('--nonrigid', 'add a smooth non-rigid correction after the affine fit (off by default)')
+    .option('--no-nonrigid', 'no non-rigid correction (the default)')
     .addOption(new Option('--json', 'print the full report as JSON').conflicts('csv'))
     .addOption(new Option('--csv', 'print one row per scored point as CSV').conflicts('json'))
     .option('--html <file>', 'also write the self-contained HTML report')
     .option('--force', 'overwrite the --html file when it exists')
-    .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis', voxelSizeArgument)
+    .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis', voxelSizeOption)
     .action((samples: string[], opts: EvaluateOptions) => runEvaluate(samples, opts, io));
 }
 const _typed: CommandRegistrar = registerEvaluate;

@@ -6,7 +6,7 @@
  *
  * Shape: read (src/io) -> describeCells (src/report) -> render -> print.
  */
-import { InvalidArgumentError, Option, type Command } from 'commander';
+import { Option, type Command } from 'commander';
 import { readTemplate } from '../io/template-file.js';
 import { formatCsv, writeFileAtomic } from '../io/write.js';
 import { type CellSortKey, type CellSummary, cellTable, describeCells, sortCellSummaries } from '../report/cell-table.js';
@@ -14,6 +14,7 @@ import { renderInspectHtml, templateFacts } from '../report/inspect-report.js';
 import { fixed } from '../report/svg/common.js';
 import type { Template } from '../types.js';
 import type { CliIo, CommandRegistrar } from './main.js';
+import { probabilityOption } from './options.js';
 
 export interface InspectOptions {
   readonly csv?: boolean;
@@ -22,15 +23,6 @@ export interface InspectOptions {
   readonly html?: string;
   readonly force?: boolean;
   readonly ellipseProbability: number;
-}
-
-/** Commander parser for --ellipse-probability: a number strictly between 0 and 1. */
-export function probabilityOption(text: string): number {
-  const p = Number(text);
-  if (text.trim() === '' || !(p > 0 && p < 1)) {
-    throw new InvalidArgumentError(`expected a probability strictly between 0 and 1, got "${text}"`);
-  }
-  return p;
 }
 
 /** The cell table as aligned text, numbers to each column's stated decimals; a dash for missing values. */

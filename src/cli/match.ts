@@ -19,8 +19,7 @@ import { DEFAULT_HIT_RADIUS, type MatchOptions } from '../match/match-sample.js'
 import { matchSamplesParallel, matchSamplesSerial, type TimedResult } from '../match/parallel.js';
 import type { Sample, Template } from '../types.js';
 import { VERSION } from '../version.js';
-import { integerOption, positiveNumberOption, voxelSizeArgument } from './build.js';
-import { hitRadiusOption } from './evaluate.js';
+import { hitRadiusOption, integerOption, positiveNumberOption, voxelSizeOption } from './options.js';
 import { CommandFailed, type CliIo, type CommandRegistrar } from './main.js';
 import * as path from 'node:path';
 
@@ -196,7 +195,7 @@ export const registerMatch: CommandRegistrar = (program: Command, io: CliIo) => 
     .option('--abstain-below <p>', 'leave points unlabelled when the confidence of their proposal is below p (default 0)', positiveNumberOption(true))
     .option('--force', 'replace existing output files')
     .option('--json', 'print the summary as JSON on stdout')
-    .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis; coordinates are multiplied by it', voxelSizeArgument)
+    .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis; coordinates are multiplied by it', voxelSizeOption)
     .action(async (templatePath: string, samplePaths: string[], o: MatchCommandOptions) => {
       if (o.abstainBelow !== undefined && o.abstainBelow > 1) throw new UsageError(`--abstain-below must be in [0, 1], got ${o.abstainBelow}`);
       const summary = await runMatch(templatePath, samplePaths, o, io);
