@@ -27,7 +27,7 @@ const processIo: CliIo = {
 /** Each command module exports a function that adds itself to the program. */
 export type CommandRegistrar = (program: Command, io: CliIo) => void;
 
-const registrars: CommandRegistrar[] = [registerCheck, registerInspect, registerBuild, registerAdd, registerCompare, registerEvaluate, registerMatch];
+const registrars: CommandRegistrar[] = [registerCheck, registerBuild, registerAdd, registerInspect, registerMatch, registerEvaluate, registerCompare];
 
 export function createProgram(io: CliIo = processIo): Command {
   const program = new Command();
@@ -36,7 +36,7 @@ export function createProgram(io: CliIo = processIo): Command {
     .description('Probabilistic templates of cell positions, and label proposals for new animals.')
     .version(VERSION, '-V, --version')
     .showHelpAfterError('(run with --help for usage)')
-    .configureOutput({ writeOut: io.stdout, writeErr: io.stderr })
+    .configureOutput({ writeOut: io.stdout, writeErr: io.stderr, getOutHelpWidth: () => 100, getErrHelpWidth: () => 100 })
     .exitOverride();
   for (const register of registrars) register(program, io);
   return program;
