@@ -113,6 +113,8 @@ const MAX_INFLATION = 1;
 const ANNEALING = [4, 2, 1];
 /** Rolls about the template's long axis tried from the best pose (360 / ROLL_STEPS degrees apart). */
 const ROLL_STEPS = 12;
+/** Distinct screened pose modes whose posteriors are averaged into the confidences. */
+const MODES_IN_CONFIDENCE = 8;
 /** Distinct pose modes refined to the end and compared by their optimal matching. */
 const FINALISTS = 3;
 
@@ -308,15 +310,27 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // Affine refinement of the chosen pose (hard EM on the matching, greedy).
   const finalPose = hardEmRefine(model, prepared.pairGrid, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
   // The other distinct pose modes weigh in on the confidences (model averaging over poses).
-  const others = refined.filter((r) => r !== best);
-  return finish(finalPose, others, best.gain);
+  // Competing modes for the confidences: every distinct mode of the screening, weighed by its
+  // screening gain against the winner's (all at the same stage, hence comparable); finalists
+  // contribute their refined pose.
+  const separation = 2 * typicalSpacing(model);
+  const winnerIndex = refined.indexOf(best);
+  const screenedModes = distinctModes(screened, points, MODES_IN_CONFIDENCE, separation);
+  const winnerScreenGain = screenedModes.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
+  const others: { transform: Transform; gain: number }[] = [];
+  for (const m of screenedModes) {
+    const f = finalists.findIndex((t) => poseDistance(t, m.transform, points) < 1e-9);
+    if (f === winnerIndex) continue;
+    others.push({ transform: f >= 0 ? refined[f].transform : m.transform, gain: m.gain });
+  }
+  return finish(finalPose, others, winnerScreenGain);
 
   /**
    * Stages 3 and 4 from the chosen affine pose. `otherModes` are competing
-   * poses with their optimal matching gains; the confidence of a proposal is
-   * its posterior averaged over the modes with weights exp(gain_m - gain_best)
-   * (each mode's evidence approximated by its best matching, both compared
-   * after the same similarity refinement).
+   * poses with their matching gains; the confidence of a proposal is its
+   * posterior averaged over the modes with weights exp(gain_m - bestGain)
+   * (each mode's evidence approximated by its best matching, all compared at
+   * the same screening stage).
    */
   function finish(finalPose: Transform, otherModes: readonly { transform: Transform; gain: number }[] = [], bestGain = 0): MatchResult {
     // rho and Lambda for the final posterior, from the chosen pose.
@@ -537,6 +551,16 @@ function distinctTop(poses: PoseEstimate[], points: Points, keep: number): PoseE
   for (const p of sorted) {
     if (out.some((q) => poseDistance(q.transform, p.transform, points) < 1)) continue;
     out.push(p);
+    if (out.length >= keep) break;
+  }
+  return out;
+}
+
+function distinctModes(modes: readonly { transform: Transform; gain: number }[], points: Points, keep: number, separation: number): { transform: Transform; gain: number }[] {
+  const out: { transform: Transform; gain: number }[] = [];
+  for (const m of modes) {
+    if (out.some((q) => poseDistance(q.transform, m.transform, points) < separation)) continue;
+    out.push(m);
     if (out.length >= keep) break;
   }
   return out;
