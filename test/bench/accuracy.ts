@@ -1,13 +1,15 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|all] [--max-trials T] [--quick] [--only NAME]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
  * default case; half of that in the half-jitter case), a bend of up to 3 um,
  * scale +-10%, any rotation, 15% missing cells, 20% outliers of which half in
- * one dense cluster beside the head. The template is built by buildTemplate
+ * one dense cluster beside the head; the ganglia case packs the same number of
+ * cells into clusters with gaps between them (as real heads group nuclei in
+ * ganglia), at the default jitter. The template is built by buildTemplate
  * (src/template) from 25 training animals labelled at 60%.
  *
  * Reported per method (ransac = cairn's matcher, icp, cpd baselines):
@@ -37,11 +39,14 @@ import { generateAnimal, generateLayout, type Animal, type Layout } from '../sup
 interface CaseSpec {
   name: string;
   jitterScale: number;
+  /** How cells fill the head (test/support/animals.ts): uniform packing, or ganglia with gaps between them. */
+  arrangement: 'uniform' | 'ganglia';
 }
 
 const CASES: CaseSpec[] = [
-  { name: 'default', jitterScale: 1 },
-  { name: 'half-jitter', jitterScale: 0.5 },
+  { name: 'default', jitterScale: 1, arrangement: 'uniform' },
+  { name: 'half-jitter', jitterScale: 0.5, arrangement: 'uniform' },
+  { name: 'ganglia', jitterScale: 1, arrangement: 'ganglia' },
 ];
 
 function argValue(name: string, fallback: string): string {
@@ -165,8 +170,8 @@ const HEADER = [
 ].join(' ');
 
 function runCase(spec: CaseSpec): void {
-  const rng = createRng(seed + Math.round(spec.jitterScale * 1000));
-  const layout = generateLayout(rng, { cells: 190, dim: 3 });
+  const rng = createRng(seed + Math.round(spec.jitterScale * 1000) + (spec.arrangement === 'ganglia' ? 1 : 0));
+  const layout = generateLayout(rng, { cells: 190, dim: 3, arrangement: spec.arrangement });
   const training = Array.from({ length: 25 }, (_, m) =>
     generateAnimal(layout, rng, `train${String(m).padStart(2, '0')}`, {
       labelledFraction: 0.6,
@@ -193,7 +198,7 @@ function runCase(spec: CaseSpec): void {
       jitterScale: spec.jitterScale,
     }),
   );
-  console.log(`\ncase ${spec.name}: 190 cells, jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, 20% outliers (half clustered), 15% missing, any rotation, bend <= 3 um, scale +-10%`);
+  console.log(`\ncase ${spec.name}: 190 cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, 20% outliers (half clustered), 15% missing, any rotation, bend <= 3 um, scale +-10%`);
   console.log(`template: buildTemplate on 25 animals labelled at 60% (${template.cells.length} cells, ${template.members.length} members); ${animals.length} test animals; max trials ${maxTrials ?? 'default'}`);
   console.log(HEADER);
 
