@@ -188,3 +188,46 @@ export function markdownTable(header: readonly string[], rows: readonly (readonl
   const esc = (c: string) => c.replace(/\|/g, '\\|');
   return [`| ${header.map(esc).join(' | ')} |`, `|${header.map(() => '---').join('|')}|`, ...rows.map((r) => `| ${r.map(esc).join(' | ')} |`)].join('\n');
 }
+
+/** Shares of sampled CPU time per function in a V8 .cpuprofile (`node --cpu-prof`). */
+export interface ProfileShares {
+  /** Total sampled time, ms. */
+  readonly totalMs: number;
+  /** [function "name file:line", share of the total] by time spent in the function itself. */
+  readonly self: readonly [string, number][];
+  /** The same, counting time in everything the function called (each function once per stack). */
+  readonly inclusive: readonly [string, number][];
+}
+
+interface CpuProfileNode {
+  id: number;
+  callFrame: { functionName: string; url: string; lineNumber: number };
+  children?: number[];
+}
+
+/** Self and inclusive shares of the `top` heaviest functions of one .cpuprofile file. */
+export function cpuProfileShares(file: string, top = 25): ProfileShares {
+  const p = JSON.parse(readFileSync(file, 'utf8')) as { nodes: CpuProfileNode[]; samples: number[]; timeDeltas: number[] };
+  const byId = new Map(p.nodes.map((n) => [n.id, n]));
+  const parent = new Map<number, number>();
+  for (const n of p.nodes) for (const c of n.children ?? []) parent.set(c, n.id);
+  const key = (n: CpuProfileNode) => `${n.callFrame.functionName || '(anonymous)'} ${n.callFrame.url.split('/').slice(-2).join('/')}:${n.callFrame.lineNumber + 1}`;
+  const perNode = new Map<number, number>();
+  p.samples.forEach((id, i) => perNode.set(id, (perNode.get(id) ?? 0) + (p.timeDeltas[i] ?? 0)));
+  const self = new Map<string, number>(), inclusive = new Map<string, number>();
+  let total = 0;
+  for (const [id, t] of perNode) {
+    total += t;
+    const k = key(byId.get(id) as CpuProfileNode);
+    self.set(k, (self.get(k) ?? 0) + t);
+    const seen = new Set<string>();
+    for (let cur: number | undefined = id; cur !== undefined; cur = parent.get(cur)) {
+      const kk = key(byId.get(cur) as CpuProfileNode);
+      if (seen.has(kk)) continue;
+      seen.add(kk);
+      inclusive.set(kk, (inclusive.get(kk) ?? 0) + t);
+    }
+  }
+  const rank = (m: Map<string, number>) => [...m].sort((a, b) => b[1] - a[1]).slice(0, top).map(([k, t]) => [k, total ? t / total : 0] as [string, number]);
+  return { totalMs: total / 1000, self: rank(self), inclusive: rank(inclusive) };
+}

@@ -8,6 +8,8 @@
  *   --write-docs       write docs/benchmarks.md from this run
  *   --json FILE        also write every result as JSON
  *   --list             list the cases and exit
+ *   --profile-summary DIR   print self and inclusive CPU shares per function of every
+ *                      .cpuprofile in DIR (made with `node --cpu-prof --cpu-prof-dir=DIR ...`)
  *
  * Environment: CAIRN_BENCH_SKIP_PEERS=1 skips R and Python (as if absent).
  *
@@ -16,7 +18,7 @@
  * the ratios against the baseline measured in the same run.
  */
 import { spawnSync } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -26,7 +28,7 @@ import { batch } from './cases/batch.js';
 import { build1000, build200, build50 } from './cases/build.js';
 import { match190, match400 } from './cases/match.js';
 import type { BenchCase, CaseContext, CaseResult } from './cases/types.js';
-import { currentRssMiB, formatMs, formatRatio, formatStats, machineInfo, textTable, type MachineInfo } from './harness.js';
+import { cpuProfileShares, currentRssMiB, formatMs, formatRatio, formatStats, machineInfo, textTable, type MachineInfo } from './harness.js';
 import { renderDocs } from './report.js';
 
 const CASES: readonly BenchCase[] = [build50, build200, build1000, add200, match190, match400, assign300, assign1000, batch];
@@ -42,11 +44,12 @@ interface Args {
   writeDocs: boolean;
   json: string | null;
   list: boolean;
+  profileDir: string | null;
   batchSize?: number;
 }
 
 function parseArgs(argv: readonly string[]): Args {
-  const a: Args = { quick: false, only: null, child: null, tmp: null, writeDocs: false, json: null, list: false };
+  const a: Args = { quick: false, only: null, child: null, tmp: null, writeDocs: false, json: null, list: false, profileDir: null };
   for (let i = 0; i < argv.length; i++) {
     const v = argv[i];
     const next = (): string => {
@@ -61,6 +64,7 @@ function parseArgs(argv: readonly string[]): Args {
     else if (v === '--write-docs') a.writeDocs = true;
     else if (v === '--json') a.json = next();
     else if (v === '--list') a.list = true;
+    else if (v === '--profile-summary') a.profileDir = next();
     else if (v === '--batch-size') {
       const n = Number(next());
       if (!Number.isInteger(n) || n < 1) throw new Error(`--batch-size must be a positive integer, got ${argv[i]}`);
@@ -178,6 +182,14 @@ async function main(): Promise<void> {
   if (args.quick && args.writeDocs) throw new Error('--write-docs needs a full run: a --quick smoke run is not for the docs');
   if (args.list) {
     for (const c of CASES) console.log(`${c.name.padEnd(16)} ${c.title}`);
+  } else if (args.profileDir) {
+    const dir = args.profileDir;
+    for (const f of readdirSync(dir).filter((x) => x.endsWith('.cpuprofile'))) {
+      const p = cpuProfileShares(path.join(dir, f), 30);
+      console.log(`== ${f}: ${formatMs(p.totalMs)} sampled`);
+      const rows = p.self.map(([k, v], i) => [`${(100 * v).toFixed(1)}%`, k, p.inclusive[i] ? `${(100 * p.inclusive[i][1]).toFixed(1)}%` : '', p.inclusive[i]?.[0] ?? '']);
+      console.log(textTable(['self', 'function', 'inclusive', 'function'], rows));
+    }
   } else if (args.child) {
     await runChild(args);
   } else {
