@@ -1,27 +1,49 @@
 /**
  * `cairn match TEMPLATE SAMPLES... -o DIR [--method ransac|icp|cpd] [--seed N]
  *  [--hit-radius R|auto] [--jobs N] [--max-trials N] [--nonrigid | --no-nonrigid]
- *  [--abstain-below P] [--force] [--json] [--voxel-size X,Y[,Z]]`:
+ *  [--abstain-below P] [--force] [--json] [--voxel-size X,Y[,Z]] [--no-timestamp]
+ *  [--html FILE [--accuracy-from EVAL.json]]`:
  * propose labels for samples against a template. Writes DIR/<id>.csv per
  * sample (docs/formats.md, "Match output") and DIR/summary.json; prints a
  * short table, or the summary as JSON under --json.
  *
- * Shape: read (src/io) -> [chooseHitRadius] -> match (src/match, serial or
- * worker threads; each sample's generator is seeded from --seed and its id, so
- * --jobs never changes a result) -> write everything atomically -> print.
+ * Shape: plan (sample ids and dimensions from file names and headers; refuse
+ * repeated ids, a dimension other than the template's and existing outputs
+ * before any work) -> [chooseHitRadius] -> stream: read one file, match its
+ * samples (this thread, or worker threads with at most 2 x --jobs samples in
+ * flight), write each CSV atomically as soon as it is done, drop the sample ->
+ * summary.json last (atomically) -> print. Each sample's generator is seeded
+ * from --seed and its id, so --jobs never changes a byte. A file that turns
+ * out bad while streaming is an error of its samples in the summary; the run
+ * goes on and exits 1. SIGINT stops taking samples, terminates the workers
+ * and leaves every CSV complete or absent (no summary.json).
  */
 import { Option, type Command } from 'commander';
-import { UsageError } from '../errors.js';
+import * as path from 'node:path';
+import { InputError, UsageError } from '../errors.js';
 import { chooseHitRadius, type HitRadiusChoice } from '../evaluate/hit-radius.js';
 import { sampleSeed } from '../evaluate/cross-validate.js';
-import { ensureOutputDir, formatMatchCsv, readSamples, readTemplate, assertWritable, writeFileAtomic } from '../io/index.js';
+import {
+  assertWritable,
+  canonicalPath,
+  ensureOutputDir,
+  formatMatchCsv,
+  parseCsvRecords,
+  readSamplesCollect,
+  readTemplate,
+  readTextFile,
+  sampleIdFromPath,
+  writeFileAtomic,
+} from '../io/index.js';
 import { DEFAULT_HIT_RADIUS, type MatchOptions } from '../match/match-sample.js';
-import { matchSamplesParallel, matchSamplesSerial, type TimedResult } from '../match/parallel.js';
+import { matchSampleStream, type SampleJob, type TimedResult } from '../match/parallel.js';
+import type { MeasuredAccuracy } from '../report/html.js';
+import { MATCH_REPORT_FIGURES, matchedFigureInput, measuredAccuracyFromEvaluateJson, renderMatchHtml } from '../report/match-report.js';
+import type { MatchedFigureInput } from '../report/svg/matched-figure.js';
 import type { Sample, Template } from '../types.js';
 import { VERSION } from '../version.js';
 import { hitRadiusOption, integerOption, positiveNumberOption, voxelSizeOption } from './options.js';
 import { CommandFailed, type CliIo, type CommandRegistrar } from './main.js';
-import * as path from 'node:path';
 
 export interface MatchCommandOptions {
   readonly output: string;
@@ -35,6 +57,10 @@ export interface MatchCommandOptions {
   readonly force?: boolean;
   readonly json?: boolean;
   readonly voxelSize?: number[];
+  /** false under --no-timestamp: no `created`, no per-sample `seconds` (reproducible bytes). */
+  readonly timestamp?: boolean;
+  readonly html?: string;
+  readonly accuracyFrom?: string;
 }
 
 export interface MatchSampleSummary {
@@ -50,8 +76,9 @@ export interface MatchSampleSummary {
   readonly trials: number | null;
   readonly stopReason: string | null;
   readonly nonRigid: boolean | null;
-  readonly seconds: number;
-  /** Why the sample could not be matched, or null. */
+  /** Wall time of matching, seconds; absent under --no-timestamp (it differs from run to run). */
+  readonly seconds?: number;
+  /** Why the sample could not be read or matched (file:row:column: reason for bad input), or null. */
   readonly error: string | null;
 }
 
@@ -66,7 +93,19 @@ export interface MatchSummary {
   readonly samples: readonly MatchSampleSummary[];
   readonly note: string;
   readonly tool: { name: 'cairn'; version: string };
-  readonly created: string;
+  /** ISO time of writing; absent under --no-timestamp. */
+  readonly created?: string;
+}
+
+/** Thrown by runMatch when SIGINT (or `signal`) stopped the batch; the CSVs written so far are complete. */
+export class MatchInterrupted extends Error {
+  constructor(
+    readonly written: number,
+    readonly total: number,
+  ) {
+    super(`interrupted after ${written} of ${total} samples`);
+    this.name = 'MatchInterrupted';
+  }
 }
 
 /** Samples made from the template members' labelled positions (for --hit-radius auto). */
@@ -84,23 +123,105 @@ export function memberSamples(template: Template): Sample[] {
     }));
 }
 
-export async function runMatch(templatePath: string, samplePaths: readonly string[], o: MatchCommandOptions, io: CliIo): Promise<MatchSummary> {
+/** One sample file as planned before any work: the sample ids it will give and their dimension, when known cheaply. */
+interface PlannedFile {
+  readonly file: string;
+  readonly ids: readonly string[];
+  /** Position of ids[0] among all planned samples (summary order). */
+  readonly first: number;
+}
+
+/**
+ * The ids (and dimension) a sample file will give, cheaply: a one-sample CSV
+ * (no `sample` column) from its name and header line only; a long table or a
+ * JSON file by reading it once and keeping only ids and dimensions. A file
+ * that cannot be read or parsed plans one sample named after the file; its
+ * error is reported for that sample when the batch reaches it.
+ */
+function planFile(file: string, voxelSize: number[] | undefined): { ids: string[]; dims: (number | null)[] } {
+  const fallback = { ids: [sampleIdFromPath(file)], dims: [null] };
+  const ext = path.extname(file).toLowerCase();
+  if (ext === '.csv') {
+    let text: string;
+    try {
+      text = readTextFile(file);
+    } catch (e) {
+      if (e instanceof InputError) return fallback;
+      throw e;
+    }
+    const end = text.indexOf('\n');
+    const headerLine = (end < 0 ? text : text.slice(0, end)).replace(/^\uFEFF/, '');
+    let names: string[];
+    try {
+      names = (parseCsvRecords(headerLine, file)[0]?.fields ?? []).map((f) => f.trim().toLowerCase());
+    } catch (e) {
+      if (e instanceof InputError) return fallback;
+      throw e;
+    }
+    if (!names.includes('sample')) return { ids: fallback.ids, dims: [names.includes('x') && names.includes('y') ? (names.includes('z') ? 3 : 2) : null] };
+  } else if (ext !== '.json') return fallback;
+  const read = readSamplesCollect([file], { voxelSize });
+  if (read.errors.length > 0 || read.samples.length === 0) return fallback;
+  return { ids: read.samples.map((s) => s.id), dims: read.samples.map((s) => s.dim) };
+}
+
+interface StreamJob extends SampleJob {
+  /** Position in the summary. */
+  readonly ordinal: number;
+}
+
+export async function runMatch(
+  templatePath: string,
+  samplePaths: readonly string[],
+  o: MatchCommandOptions,
+  io: CliIo,
+  signal?: AbortSignal,
+): Promise<MatchSummary> {
+  if (samplePaths.length === 0) throw new UsageError('no sample files given');
+  const timestamp = o.timestamp !== false;
   const template = readTemplate(templatePath);
-  const samples = readSamples(samplePaths, { voxelSize: o.voxelSize });
-  for (const s of samples) {
-    if (s.dim !== template.dim) throw new UsageError(`sample ${s.id} (${s.source}) is ${s.dim}-D but the template is ${template.dim}-D`);
+  if (o.accuracyFrom !== undefined && o.html === undefined) throw new UsageError('--accuracy-from is quoted in the --html page; give --html FILE too');
+  const measured: MeasuredAccuracy | undefined = o.accuracyFrom === undefined ? undefined : measuredAccuracyFromEvaluateJson(readTextFile(o.accuracyFrom), o.accuracyFrom);
+
+  // Plan: ids, dimensions, repeated files and ids, before any work.
+  const inputs = [templatePath, ...samplePaths, ...(o.accuracyFrom === undefined ? [] : [o.accuracyFrom])];
+  const canonicalInputs = new Map<string, string>();
+  for (const p of inputs) canonicalInputs.set(canonicalPath(p), p);
+  const seenFiles = new Map<string, string>();
+  const owner = new Map<string, string>();
+  const plan: PlannedFile[] = [];
+  let total = 0;
+  for (const file of samplePaths) {
+    const key = canonicalPath(file);
+    const earlier = seenFiles.get(key);
+    if (earlier !== undefined) throw new InputError({ file }, `is given more than once${earlier === file ? '' : ` (also as ${earlier})`}`);
+    seenFiles.set(key, file);
+    const { ids, dims } = planFile(file, o.voxelSize);
+    ids.forEach((id, k) => {
+      const dim = dims[k];
+      if (dim !== null && dim !== template.dim) throw new UsageError(`sample ${id} (${file}) is ${dim}-D but the template is ${template.dim}-D`);
+      const other = owner.get(id);
+      if (other !== undefined) throw new UsageError(`two samples are named ${JSON.stringify(id)} (${other}, ${file}); their outputs would collide`);
+      owner.set(id, file);
+    });
+    plan.push({ file, ids, first: total });
+    total += ids.length;
   }
-  const ids = new Set<string>();
-  for (const s of samples) {
-    if (ids.has(s.id)) throw new UsageError(`two samples are named ${JSON.stringify(s.id)}; their outputs would collide`);
-    ids.add(s.id);
-  }
-  const inputs = [templatePath, ...samplePaths];
+  owner.clear();
+
   ensureOutputDir(o.output, { inputs });
-  const csvPaths = samples.map((s) => path.join(o.output, `${s.id}.csv`));
+  const csvPath = (id: string): string => path.join(o.output, `${id}.csv`);
   const summaryPath = path.join(o.output, 'summary.json');
+  const refuseInput = (target: string): void => {
+    const input = canonicalInputs.get(canonicalPath(target));
+    if (input !== undefined) throw new InputError({ file: target }, `is also an input (${input}); refusing to overwrite an input, choose another output path`);
+  };
   // Refuse existing outputs before any work (nothing half-written).
-  for (const p of [...csvPaths, summaryPath]) assertWritable(p, { force: o.force, inputs });
+  const outputs = [...plan.flatMap((f) => f.ids.map(csvPath)), summaryPath, ...(o.html === undefined ? [] : [o.html])];
+  for (const p of outputs) {
+    refuseInput(p);
+    assertWritable(p, { force: o.force });
+  }
 
   let hitRadius = o.hitRadius === 'auto' || o.hitRadius === undefined ? DEFAULT_HIT_RADIUS : o.hitRadius;
   let choice: HitRadiusChoice | null = null;
@@ -114,32 +235,91 @@ export async function runMatch(templatePath: string, samplePaths: readonly strin
     hitRadius = choice.hitRadius;
   }
   const options = { ...base, hitRadius };
-  const jobs = samples.map((sample) => ({ sample, seed: sampleSeed(o.seed, sample.id) }));
-  const timed: TimedResult[] = o.jobs > 1 ? await matchSamplesParallel(template, jobs, options, o.jobs) : matchSamplesSerial(template, jobs, options);
 
-  const entries: MatchSampleSummary[] = [];
-  timed.forEach((t, i) => {
-    const s = samples[i];
+  // Stream: compact entries by position; the figures of the first samples for --html.
+  const entries: (MatchSampleSummary | undefined)[] = new Array(total);
+  const figures = new Map<number, MatchedFigureInput>();
+  const failEntry = (ordinal: number, id: string, source: string, error: string, points = 0): void => {
+    entries[ordinal] = {
+      id,
+      source,
+      output: null,
+      points,
+      proposed: 0,
+      meanConfidence: null,
+      transform: null,
+      hits: null,
+      score: null,
+      trials: null,
+      stopReason: null,
+      nonRigid: null,
+      ...(timestamp ? { seconds: 0 } : {}),
+      error,
+    };
+  };
+  function* jobs(): Generator<StreamJob> {
+    for (const planned of plan) {
+      const read = readSamplesCollect([planned.file], { voxelSize: o.voxelSize });
+      if (read.errors.length > 0) {
+        const message = read.errors[0].message + (read.errors.length > 1 ? ` (and ${read.errors.length - 1} more error${read.errors.length > 2 ? 's' : ''} in this file)` : '');
+        planned.ids.forEach((id, k) => failEntry(planned.first + k, id, planned.file, message));
+        continue;
+      }
+      const seen = new Set<string>();
+      for (const sample of read.samples) {
+        const k = planned.ids.indexOf(sample.id);
+        if (k < 0 || seen.has(sample.id)) continue; // the file changed since it was planned; reported below
+        seen.add(sample.id);
+        const ordinal = planned.first + k;
+        if (sample.dim !== template.dim) {
+          failEntry(ordinal, sample.id, sample.source, `${sample.source}: is ${sample.dim}-D but the template is ${template.dim}-D`, sample.coords.length);
+          continue;
+        }
+        yield { sample, seed: sampleSeed(o.seed, sample.id), ordinal };
+      }
+      planned.ids.forEach((id, k) => {
+        if (!seen.has(id)) failEntry(planned.first + k, id, planned.file, `${planned.file}: sample ${JSON.stringify(id)} was no longer in the file when it was read for matching`);
+      });
+    }
+  }
+  const onResult = (_index: number, job: StreamJob, t: TimedResult): void => {
+    const s = job.sample;
     const r = t.result;
-    if (r) writeFileAtomic(csvPaths[i], formatMatchCsv(s, r.proposals), { force: o.force, inputs });
-    const labelled = r ? r.proposals.filter((p) => p.label !== null) : [];
-    entries.push({
+    if (!r) {
+      failEntry(job.ordinal, s.id, s.source, t.error ?? 'could not be matched', s.coords.length);
+      return;
+    }
+    const out = csvPath(s.id);
+    writeFileAtomic(out, formatMatchCsv(s, r.proposals), { force: o.force });
+    let proposed = 0;
+    let confidence = 0;
+    for (const p of r.proposals) {
+      if (p.label === null) continue;
+      proposed++;
+      confidence += p.confidence;
+    }
+    entries[job.ordinal] = {
       id: s.id,
       source: s.source,
-      output: r ? csvPaths[i] : null,
+      output: out,
       points: s.coords.length,
-      proposed: labelled.length,
-      meanConfidence: labelled.length ? labelled.reduce((a, p) => a + p.confidence, 0) / labelled.length : null,
-      transform: r ? { kind: r.transform.kind, linear: r.transform.linear.map((row) => row.slice()), translation: r.transform.translation.slice() } : null,
-      hits: r ? r.hits : null,
-      score: r ? r.score : null,
-      trials: r ? r.trials : null,
-      stopReason: r ? r.stopReason : null,
-      nonRigid: r ? r.nonRigid : null,
-      seconds: t.seconds,
-      error: t.error,
-    });
-  });
+      proposed,
+      meanConfidence: proposed ? confidence / proposed : null,
+      transform: { kind: r.transform.kind, linear: r.transform.linear.map((row) => row.slice()), translation: r.transform.translation.slice() },
+      hits: r.hits,
+      score: r.score,
+      trials: r.trials,
+      stopReason: r.stopReason,
+      nonRigid: r.nonRigid,
+      ...(timestamp ? { seconds: t.seconds } : {}),
+      error: null,
+    };
+    if (o.html !== undefined && job.ordinal < MATCH_REPORT_FIGURES) figures.set(job.ordinal, matchedFigureInput(s, r));
+  };
+  const outcome = await matchSampleStream(template, jobs(), options, onResult, { threads: Math.max(1, Math.min(o.jobs, total)), signal });
+  if (outcome.aborted) throw new MatchInterrupted(entries.filter((e) => e?.output).length, total);
+
+  const samples = entries.map((e, i) => e ?? unreachableEntry(i));
   const summary: MatchSummary = {
     format: 'cairn-match',
     version: 1,
@@ -148,14 +328,33 @@ export async function runMatch(templatePath: string, samplePaths: readonly strin
     method: o.method,
     hitRadius,
     hitRadiusChoice: choice,
-    samples: entries,
+    samples,
     note: 'Labels are proposals to verify, not identifications.',
     tool: { name: 'cairn', version: VERSION },
-    created: new Date().toISOString(),
+    ...(timestamp ? { created: new Date().toISOString() } : {}),
   };
-  writeFileAtomic(summaryPath, JSON.stringify(summary, null, 2) + '\n', { force: o.force, inputs });
+  if (o.html !== undefined) {
+    const html = renderMatchHtml({
+      template,
+      templatePath,
+      method: o.method,
+      hitRadius,
+      seed: o.seed,
+      rows: samples,
+      figures: [...figures.entries()].sort((a, b) => a[0] - b[0]).map(([, f]) => f),
+      measured,
+      toolLine: `cairn ${VERSION}; template ${templatePath}; ${samplePaths.length} sample file${samplePaths.length === 1 ? '' : 's'}`,
+    });
+    writeFileAtomic(o.html, html, { force: o.force });
+  }
+  // Last, so that a summary.json means the batch finished.
+  writeFileAtomic(summaryPath, JSON.stringify(summary, null, 2) + '\n', { force: o.force });
   void io;
   return summary;
+}
+
+function unreachableEntry(i: number): never {
+  throw new Error(`internal: no summary entry for sample ${i + 1}`);
 }
 
 function renderText(s: MatchSummary): string {
@@ -171,7 +370,7 @@ function renderText(s: MatchSummary): string {
       continue;
     }
     lines.push(
-      `${e.id}   ${e.points}   ${e.proposed}   ${e.meanConfidence === null ? '-' : e.meanConfidence.toFixed(3)}   ${e.trials}   ${e.stopReason}   ${e.seconds.toFixed(2)}   ${e.output}`,
+      `${e.id}   ${e.points}   ${e.proposed}   ${e.meanConfidence === null ? '-' : e.meanConfidence.toFixed(3)}   ${e.trials}   ${e.stopReason}   ${e.seconds === undefined ? '-' : e.seconds.toFixed(2)}   ${e.output}`,
     );
   }
   lines.push('Labels are proposals to verify, not identifications.');
@@ -196,10 +395,36 @@ export const registerMatch: CommandRegistrar = (program: Command, io: CliIo) => 
     .option('--force', 'replace existing output files')
     .option('--json', 'print the summary as JSON on stdout')
     .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis; coordinates are multiplied by it', voxelSizeOption)
+    .option('--no-timestamp', 'leave the creation time and the per-sample timings out of summary.json (reproducible bytes)')
+    .option('--html <file>', 'also write a self-contained HTML page: summary, cautions, a table of samples, figures of the first 12 samples')
+    .option('--accuracy-from <eval.json>', 'quote on the --html page the accuracy measured by `cairn evaluate --json` (its saved output)')
     .action(async (templatePath: string, samplePaths: string[], o: MatchCommandOptions) => {
       if (o.abstainBelow !== undefined && o.abstainBelow > 1) throw new UsageError(`--abstain-below must be in [0, 1], got ${o.abstainBelow}`);
-      const summary = await runMatch(templatePath, samplePaths, o, io);
+      // SIGINT: stop taking samples, terminate the workers, keep the complete CSVs; a second SIGINT ends the process at once.
+      const controller = new AbortController();
+      const onSigint = (): void => {
+        if (controller.signal.aborted) {
+          process.removeListener('SIGINT', onSigint);
+          process.kill(process.pid, 'SIGINT');
+          return;
+        }
+        controller.abort();
+      };
+      process.on('SIGINT', onSigint);
+      let summary: MatchSummary;
+      try {
+        summary = await runMatch(templatePath, samplePaths, o, io, controller.signal);
+      } catch (e) {
+        if (e instanceof MatchInterrupted) {
+          io.stderr(`cairn match: interrupted; ${e.written} of ${e.total} sample outputs were written and are complete, summary.json was not written\n`);
+          throw new CommandFailed('interrupted');
+        }
+        throw e;
+      } finally {
+        process.removeListener('SIGINT', onSigint);
+      }
       io.stdout(o.json ? JSON.stringify(summary, null, 2) + '\n' : renderText(summary));
+      if (o.html !== undefined) io.stderr(`cairn match: wrote ${o.html}\n`);
       const failed = summary.samples.filter((e) => e.error !== null);
       if (failed.length > 0) {
         io.stderr(`cairn match: ${failed.length} sample${failed.length === 1 ? '' : 's'} could not be matched: ${failed.map((e) => `${e.id} (${e.error})`).join('; ')}\n`);

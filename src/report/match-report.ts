@@ -1,0 +1,180 @@
+/**
+ * The HTML report of `cairn match`: the cautions first, a summary of the
+ * batch (samples, points, proposals, mean confidence, stop reasons), a table
+ * of every sample, and the matched-sample figure for the first
+ * MATCH_REPORT_FIGURES samples. Built from compact per-sample rows so that a
+ * streaming batch keeps only what the page needs.
+ */
+import { InputError } from '../errors.js';
+import { applyToPoint } from '../geometry/transform.js';
+import type { MatchResult } from '../match/match-sample.js';
+import type { Sample, Template } from '../types.js';
+import {
+  measuredAccuracyFromReport,
+  paragraph,
+  proposalCautions,
+  renderFigure,
+  renderHtmlReport,
+  renderTable,
+  type MeasuredAccuracy,
+  type ReportPage,
+} from './html.js';
+import { fixed } from './svg/common.js';
+import { matchedSampleFigureSvg, type MatchedFigureInput } from './svg/matched-figure.js';
+
+/** How many samples get a figure on the page. */
+export const MATCH_REPORT_FIGURES = 12;
+
+/** One sample's line in the report (what summary.json keeps, minus the transform). */
+export interface MatchReportRow {
+  readonly id: string;
+  readonly source: string;
+  readonly points: number;
+  readonly proposed: number;
+  readonly meanConfidence: number | null;
+  readonly stopReason: string | null;
+  readonly error: string | null;
+}
+
+export interface MatchReportInput {
+  readonly template: Template;
+  readonly templatePath: string;
+  readonly method: string;
+  readonly hitRadius: number;
+  readonly seed: number;
+  /** Every sample, in input order. */
+  readonly rows: readonly MatchReportRow[];
+  /** Figures of the first samples matched (at most MATCH_REPORT_FIGURES are drawn). */
+  readonly figures: readonly MatchedFigureInput[];
+  /** Accuracy `cairn evaluate` measured on the lab's own data, when given. */
+  readonly measured?: MeasuredAccuracy;
+  readonly toolLine?: string;
+}
+
+/**
+ * The figure input for one matched sample: each sample point mapped into the
+ * template frame by the result's (affine) transform, y = A x + t, with its
+ * proposed label and confidence, named by its input row ("row N").
+ */
+export function matchedFigureInput(sample: Sample, result: MatchResult): MatchedFigureInput {
+  return {
+    sampleId: sample.id,
+    points: sample.coords.map((x, i) => ({
+      coords: applyToPoint(result.transform, x),
+      label: result.proposals[i].label,
+      confidence: result.proposals[i].confidence,
+      name: `row ${sample.rows[i]}`,
+    })),
+  };
+}
+
+/**
+ * MeasuredAccuracy from the JSON `cairn evaluate --json` prints: its
+ * top-level `report` object (accuracy, points, coverage, falseLabelRate,
+ * perSample) and `scheme`. Throws InputError naming `file` when the text is
+ * not such a document.
+ */
+export function measuredAccuracyFromEvaluateJson(text: string, file: string): MeasuredAccuracy {
+  let doc: unknown;
+  try {
+    doc = JSON.parse(text.replace(/^\uFEFF/, ''));
+  } catch (e) {
+    throw new InputError({ file }, `is not valid JSON (${(e as Error).message}); expected the output of \`cairn evaluate --json\``);
+  }
+  const report = (doc as { report?: unknown } | null)?.report as Record<string, unknown> | undefined;
+  if (typeof report !== 'object' || report === null) {
+    throw new InputError({ file }, 'has no "report" object; expected the output of `cairn evaluate --json`');
+  }
+  for (const key of ['accuracy', 'points', 'coverage', 'falseLabelRate'] as const) {
+    if (typeof report[key] !== 'number' || !Number.isFinite(report[key])) {
+      throw new InputError({ file }, `report.${key} must be a finite number; expected the output of \`cairn evaluate --json\``);
+    }
+  }
+  if (!Array.isArray(report.perSample)) throw new InputError({ file }, 'report.perSample must be an array; expected the output of `cairn evaluate --json`');
+  const accuracy = report.accuracy as number;
+  const points = report.points as number;
+  if (!(accuracy >= 0 && accuracy <= 1)) throw new InputError({ file }, `report.accuracy must be in [0, 1], got ${accuracy}`);
+  if (!(Number.isInteger(points) && points > 0) || report.perSample.length === 0) {
+    throw new InputError({ file }, 'reports no labelled points or samples; evaluate measured nothing to quote');
+  }
+  const scheme = typeof (doc as { scheme?: unknown }).scheme === 'string' ? (doc as { scheme: string }).scheme : 'cross-validation';
+  return measuredAccuracyFromReport(
+    {
+      accuracy,
+      points,
+      coverage: report.coverage as number,
+      falseLabelRate: report.falseLabelRate as number,
+      perSample: report.perSample as unknown[],
+    },
+    scheme,
+  );
+}
+
+/** The match report as a ReportPage (render with renderHtmlReport). */
+export function buildMatchReport(input: MatchReportInput): ReportPage {
+  const rows = input.rows;
+  const matched = rows.filter((r) => r.error === null);
+  const failed = rows.length - matched.length;
+  const points = rows.reduce((a, r) => a + r.points, 0);
+  const proposed = matched.reduce((a, r) => a + r.proposed, 0);
+  const confidenceSum = matched.reduce((a, r) => a + (r.meanConfidence === null ? 0 : r.meanConfidence * r.proposed), 0);
+  const stops = new Map<string, number>();
+  for (const r of matched) if (r.stopReason !== null) stops.set(r.stopReason, (stops.get(r.stopReason) ?? 0) + 1);
+  const stopText = [...stops.entries()]
+    .sort((a, b) => b[1] - a[1] || (a[0] < b[0] ? -1 : 1))
+    .map(([reason, n]) => `${reason} (${n})`)
+    .join(', ');
+  const summary = [
+    { term: 'template', value: input.templatePath },
+    { term: 'samples', value: `${rows.length} (${matched.length} matched${failed ? `, ${failed} failed` : ''})` },
+    { term: 'points', value: String(points) },
+    { term: 'proposed labels', value: `${proposed}${points ? ` (${fixed((100 * proposed) / points, 1)}% of points)` : ''}` },
+    { term: 'mean confidence of proposals', value: proposed ? fixed(confidenceSum / proposed, 3) : '–' },
+    { term: 'pose search stopped', value: stopText || '–' },
+    { term: 'method, hit radius, seed', value: `${input.method}, ${input.hitRadius}, ${input.seed}` },
+  ];
+  const shown = input.figures.slice(0, MATCH_REPORT_FIGURES);
+  const figureHtml = shown
+    .map((f, i) =>
+      renderFigure(
+        matchedSampleFigureSvg(input.template, f, { idPrefix: `m${i}` }),
+        `Sample ${f.sampleId}: its points mapped into the template frame with their proposed labels and confidences.`,
+      ),
+    )
+    .join('\n');
+  const more =
+    matched.length > shown.length
+      ? paragraph(`Figures are shown for the first ${shown.length} of ${matched.length} matched samples; every sample's proposals are in its CSV file.`)
+      : '';
+  const sections = [
+    {
+      heading: 'Samples',
+      html:
+        paragraph('One row per sample. Click a heading to sort.') +
+        renderTable({
+          columns: [
+            { heading: 'sample', numeric: false },
+            { heading: 'points', numeric: true, digits: 0 },
+            { heading: 'proposed', numeric: true, digits: 0, description: 'points given a label' },
+            { heading: 'mean confidence', numeric: true, digits: 3, description: 'mean posterior probability of the proposed labels' },
+            { heading: 'stop reason', numeric: false, description: 'why the pose search stopped' },
+            { heading: 'error', numeric: false },
+          ],
+          rows: rows.map((r) => [r.id, r.points, r.error ? null : r.proposed, r.meanConfidence, r.stopReason, r.error]),
+        }),
+    },
+    { heading: 'Matched samples', html: (figureHtml || paragraph('No sample could be matched.')) + more },
+  ];
+  return {
+    title: `cairn match: ${rows.length} sample${rows.length === 1 ? '' : 's'}`,
+    summary,
+    cautions: proposalCautions(input.measured),
+    sections,
+    footer: input.toolLine,
+  };
+}
+
+/** The self-contained HTML page of a match run. */
+export function renderMatchHtml(input: MatchReportInput): string {
+  return renderHtmlReport(buildMatchReport(input));
+}
