@@ -66,6 +66,7 @@ export interface MatchCommandOptions {
 export interface MatchSampleSummary {
   readonly id: string;
   readonly source: string;
+  /** The sample's CSV, a file name relative to the folder of summary.json (so the folder can move), or null. */
   readonly output: string | null;
   readonly points: number;
   readonly proposed: number;
@@ -301,7 +302,7 @@ export async function runMatch(
     entries[job.ordinal] = {
       id: s.id,
       source: s.source,
-      output: out,
+      output: path.basename(out),
       points: s.coords.length,
       proposed,
       meanConfidence: proposed ? confidence / proposed : null,
@@ -357,7 +358,7 @@ function unreachableEntry(i: number): never {
   throw new Error(`internal: no summary entry for sample ${i + 1}`);
 }
 
-function renderText(s: MatchSummary): string {
+function renderText(s: MatchSummary, dir: string): string {
   const lines: string[] = [];
   lines.push(`matched ${s.samples.length} sample${s.samples.length === 1 ? '' : 's'} against ${s.template} (method ${s.method}, hit radius ${s.hitRadius}, seed ${s.seed})`);
   if (s.hitRadiusChoice) {
@@ -370,7 +371,7 @@ function renderText(s: MatchSummary): string {
       continue;
     }
     lines.push(
-      `${e.id}   ${e.points}   ${e.proposed}   ${e.meanConfidence === null ? '-' : e.meanConfidence.toFixed(3)}   ${e.trials}   ${e.stopReason}   ${e.seconds === undefined ? '-' : e.seconds.toFixed(2)}   ${e.output}`,
+      `${e.id}   ${e.points}   ${e.proposed}   ${e.meanConfidence === null ? '-' : e.meanConfidence.toFixed(3)}   ${e.trials}   ${e.stopReason}   ${e.seconds === undefined ? '-' : e.seconds.toFixed(2)}   ${path.join(dir, e.output ?? '')}`,
     );
   }
   lines.push('Labels are proposals to verify, not identifications.');
@@ -423,7 +424,7 @@ export const registerMatch: CommandRegistrar = (program: Command, io: CliIo) => 
       } finally {
         process.removeListener('SIGINT', onSigint);
       }
-      io.stdout(o.json ? JSON.stringify(summary, null, 2) + '\n' : renderText(summary));
+      io.stdout(o.json ? JSON.stringify(summary, null, 2) + '\n' : renderText(summary, o.output));
       if (o.html !== undefined) io.stderr(`cairn match: wrote ${o.html}\n`);
       const failed = summary.samples.filter((e) => e.error !== null);
       if (failed.length > 0) {

@@ -1,0 +1,62 @@
+/**
+ * Memory and time of a large `cairn match` batch (a benchmark, not a test;
+ * figures depend on the machine and its load):
+ *
+ *   npx tsc -p . && npx tsx test/bench/match-scale.ts [--samples N] [--jobs J] [--max-trials T] [--keep]
+ *
+ * Writes a 40-cell 3-D template and N copies (default 10,000) of one small
+ * synthetic animal (test/support/animals.ts, labels removed) to a temporary
+ * folder, runs the built CLI (`node bin/cairn.js match ... --jobs 2
+ * --max-trials 50 --no-timestamp`) under /usr/bin/time -v, and prints the
+ * peak resident set size of the whole process (main thread and workers share
+ * it) and the wall time. Streaming shows as a peak that does not grow with N.
+ */
+import { spawnSync } from 'node:child_process';
+import { mkdirSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { serializeTemplate } from '../../src/io/template-file.js';
+import { createRng } from '../../src/random.js';
+import { generateAnimal, generateLayout, writeSampleCsv } from '../support/animals.js';
+import { templateFromTraining } from '../match/support.js';
+
+function argValue(name: string, fallback: string): string {
+  const i = process.argv.indexOf(`--${name}`);
+  return i >= 0 && i + 1 < process.argv.length ? process.argv[i + 1] : fallback;
+}
+
+const samples = Number(argValue('samples', '10000'));
+const jobs = argValue('jobs', '2');
+const maxTrials = argValue('max-trials', '50');
+const keep = process.argv.includes('--keep');
+const root = resolve(dirname(fileURLToPath(import.meta.url)), '../..');
+
+const dir = mkdtempSync(join(tmpdir(), 'cairn-scale-'));
+try {
+  const rng = createRng(2026);
+  const layout = generateLayout(rng, { cells: 40, dim: 3 });
+  writeFileSync(join(dir, 'template.json'), serializeTemplate(templateFromTraining(layout, rng, { members: 8 })));
+  const animal = generateAnimal(layout, rng, 'animal', { missingFraction: 0.1, outlierFraction: 0.1 }).sample;
+  const text = writeSampleCsv({ ...animal, labels: animal.labels.map(() => null) });
+  mkdirSync(join(dir, 's'));
+  const names: string[] = [];
+  for (let i = 0; i < samples; i++) {
+    const name = join('s', `a${String(i).padStart(5, '0')}.csv`);
+    writeFileSync(join(dir, name), text);
+    names.push(name);
+  }
+  const args = ['-v', process.execPath, join(root, 'bin/cairn.js'), 'match', 'template.json', ...names, '-o', 'out', '--jobs', jobs, '--max-trials', maxTrials, '--no-timestamp'];
+  const run = spawnSync('/usr/bin/time', args, { cwd: dir, encoding: 'utf8', maxBuffer: 1 << 30 });
+  const rss = /Maximum resident set size \(kbytes\): (\d+)/.exec(run.stderr)?.[1];
+  const wall = /Elapsed \(wall clock\) time \(h:mm:ss or m:ss\): (\S+)/.exec(run.stderr)?.[1];
+  const cpu = /User time \(seconds\): (\S+)/.exec(run.stderr)?.[1];
+  const written = readdirSync(join(dir, 'out')).filter((f) => f.endsWith('.csv')).length;
+  console.log(`samples ${samples} (${animal.coords.length} points each), template 40 cells, --jobs ${jobs}, --max-trials ${maxTrials}`);
+  console.log(`exit code ${run.status}; CSVs written ${written}`);
+  console.log(`peak RSS ${rss === undefined ? '?' : (Number(rss) / 1024).toFixed(1)} MiB; wall ${wall ?? '?'}; user CPU ${cpu ?? '?'} s`);
+  if (run.status !== 0) console.log(run.stderr.split('\n').filter((l) => !l.startsWith('\t')).slice(-5).join('\n'));
+  if (keep) console.log(`kept ${dir}`);
+} finally {
+  if (!keep) rmSync(dir, { recursive: true, force: true });
+}
