@@ -248,6 +248,14 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
   return { dim, cells, entries, transforms, cellOf, aligned, kept, distance, consensus, iterations, converged, skipped };
 }
 
+/**
+ * Greedy start (module comment, step 1). Each step takes the remaining sample
+ * sharing most cells with the consensus so far (ties: more labels, then earlier in
+ * content-hash order). The shared counts are kept up to date from an index
+ * cell -> candidates: when a cell first enters the consensus, every candidate
+ * holding it gains one. O(N L) index updates plus O(N^2) picks, instead of
+ * rescanning every remaining sample's labels at each step (O(N^2 L)).
+ */
 function initialise(
   candidates: readonly LabelledEntry[],
   kind: TemplateSettings['alignment'],
@@ -259,66 +267,83 @@ function initialise(
   const consensus = new Map<string, number[]>();
   const counts = new Map<string, number>();
   if (candidates.length === 0) return { members, transforms, consensus };
+  // shared[c]: labels of candidate c (with multiplicity) whose cell is in the consensus.
+  const shared = new Int32Array(candidates.length);
+  const holders = new Map<string, number[]>();
+  candidates.forEach((e, c) => {
+    for (const l of e.labels) {
+      const list = holders.get(l);
+      if (list) list.push(c);
+      else holders.set(l, [c]);
+    }
+  });
+  const enter = (l: string, m: number[]) => {
+    consensus.set(l, m);
+    counts.set(l, 1);
+    for (const c of holders.get(l) as number[]) shared[c]++;
+  };
+  const seed = (e: LabelledEntry) => {
+    members.push(e);
+    transforms.push(identityTransform(e.dim));
+    e.labels.forEach((l, j) => {
+      if (consensus.has(l)) {
+        consensus.set(l, e.coords[j].slice());
+        counts.set(l, 1);
+      } else enter(l, e.coords[j].slice());
+    });
+  };
   let ref = 0;
   for (let i = 1; i < candidates.length; i++) if (candidates[i].labels.length > candidates[ref].labels.length) ref = i;
   const first = candidates[ref];
   // The reference must itself be non-degenerate: fit it to itself.
   try {
     fitTransform(kind, first.coords, first.coords);
-    members.push(first);
-    transforms.push(identityTransform(first.dim));
-    first.labels.forEach((l, j) => {
-      consensus.set(l, first.coords[j].slice());
-      counts.set(l, 1);
-    });
+    seed(first);
   } catch (e) {
     if (!(e instanceof FitError)) throw e;
     skipped.push({ sample: first.id, reason: `cannot be aligned: ${e.message}` });
   }
-  const remaining = candidates.filter((_, i) => i !== ref);
+  // Candidate indices still to place, in content-hash order.
+  const remaining: number[] = [];
+  for (let i = 0; i < candidates.length; i++) if (i !== ref) remaining.push(i);
   while (remaining.length > 0) {
     if (members.length === 0) {
       // The reference was degenerate: start again from the next best.
       let r = 0;
-      for (let i = 1; i < remaining.length; i++) if (remaining[i].labels.length > remaining[r].labels.length) r = i;
-      const next = remaining.splice(r, 1)[0];
+      for (let i = 1; i < remaining.length; i++) if (candidates[remaining[i]].labels.length > candidates[remaining[r]].labels.length) r = i;
+      const next = candidates[remaining.splice(r, 1)[0]];
       try {
         fitTransform(kind, next.coords, next.coords);
-        members.push(next);
-        transforms.push(identityTransform(next.dim));
-        next.labels.forEach((l, j) => {
-          consensus.set(l, next.coords[j].slice());
-          counts.set(l, 1);
-        });
+        seed(next);
       } catch (e) {
         if (!(e instanceof FitError)) throw e;
         skipped.push({ sample: next.id, reason: `cannot be aligned: ${e.message}` });
       }
       continue;
     }
-    let best = -1, bestShared = -1;
+    let best = -1, bestShared = -1, bestLabels = -1;
     for (let i = 0; i < remaining.length; i++) {
-      let shared = 0;
-      for (const l of remaining[i].labels) if (consensus.has(l)) shared++;
-      if (shared > bestShared || (shared === bestShared && remaining[i].labels.length > remaining[best].labels.length)) {
+      const c = remaining[i];
+      const n = shared[c];
+      if (n > bestShared || (n === bestShared && candidates[c].labels.length > bestLabels)) {
         best = i;
-        bestShared = shared;
+        bestShared = n;
+        bestLabels = candidates[c].labels.length;
       }
     }
     if (bestShared < minPoints) {
-      for (const e of remaining) {
-        let shared = 0;
-        for (const l of e.labels) if (consensus.has(l)) shared++;
-        skipped.push({ sample: e.id, reason: `shares ${shared} labelled cell${shared === 1 ? '' : 's'} with the other samples; ${kind} alignment needs at least ${minPoints}` });
+      for (const c of remaining) {
+        const n = shared[c];
+        skipped.push({ sample: candidates[c].id, reason: `shares ${n} labelled cell${n === 1 ? '' : 's'} with the other samples; ${kind} alignment needs at least ${minPoints}` });
       }
       break;
     }
-    const e = remaining.splice(best, 1)[0];
-    const src: number[][] = [], dst: number[][] = [];
+    const e = candidates[remaining.splice(best, 1)[0]];
+    const src: (readonly number[])[] = [], dst: number[][] = [];
     e.labels.forEach((l, j) => {
       const m = consensus.get(l);
       if (m) {
-        src.push(e.coords[j] as number[]);
+        src.push(e.coords[j]);
         dst.push(m);
       }
     });
@@ -340,8 +365,7 @@ function initialise(
         for (let a = 0; a < m.length; a++) m[a] += (y[j][a] - m[a]) / (n + 1);
         counts.set(l, n + 1);
       } else {
-        consensus.set(l, y[j]);
-        counts.set(l, 1);
+        enter(l, y[j]);
       }
     });
   }
