@@ -1,0 +1,127 @@
+import { describe, expect, it } from 'vitest';
+import { InputError } from '../../src/errors.js';
+import type { MatchResult } from '../../src/match/match-sample.js';
+import {
+  buildMatchReport,
+  MATCH_REPORT_FIGURES,
+  matchedFigureInput,
+  measuredAccuracyFromEvaluateJson,
+  renderMatchHtml,
+  type MatchReportRow,
+} from '../../src/report/match-report.js';
+import type { Sample } from '../../src/types.js';
+import { testTemplate } from './support/template.js';
+import { wellFormedProblems } from './support/xml.js';
+
+const sample: Sample = {
+  id: 'gk-07',
+  source: 'gk-07.csv',
+  dim: 3,
+  coords: [
+    [1, 2, 3],
+    [0, 0, 0],
+  ],
+  labels: [null, null],
+  rows: [2, 3],
+  features: { names: [], values: [[], []] },
+};
+
+function result(labels: (string | null)[], confidences: number[]): MatchResult {
+  return {
+    sampleId: 'gk-07',
+    method: 'ransac',
+    // A quarter turn about z, then a shift: (x, y, z) -> (-y + 10, x + 20, z + 30).
+    transform: { kind: 'rigid', linear: [[0, -1, 0], [1, 0, 0], [0, 0, 1]], translation: [10, 20, 30] },
+    proposals: labels.map((label, i) => ({ label, confidence: confidences[i], distance: label === null ? null : 1, alternatives: [] })),
+    hits: 1,
+    score: 2,
+    trials: 10,
+    stopReason: 'converged',
+    nonRigid: false,
+  };
+}
+
+const row = (id: string, proposed: number, meanConfidence: number | null, error: string | null = null): MatchReportRow => ({
+  id,
+  source: `${id}.csv`,
+  points: 10,
+  proposed,
+  meanConfidence,
+  stopReason: error ? null : 'converged',
+  error,
+});
+
+describe('matchedFigureInput', () => {
+  it('maps each sample point into the template frame by y = A x + t and names it by its input row', () => {
+    const f = matchedFigureInput(sample, result(['AB1', null], [0.9, 0.6]));
+    expect(f.sampleId).toBe('gk-07');
+    // By hand: A (1,2,3) = (-2, 1, 3); plus t = (8, 21, 33). A 0 + t = t.
+    expect(f.points[0].coords).toEqual([8, 21, 33]);
+    expect(f.points[1].coords).toEqual([10, 20, 30]);
+    expect(f.points.map((p) => [p.label, p.confidence, p.name])).toEqual([
+      ['AB1', 0.9, 'row 2'],
+      [null, 0.6, 'row 3'],
+    ]);
+  });
+});
+
+describe('measuredAccuracyFromEvaluateJson', () => {
+  const doc = { scheme: 'leave-one-out', report: { accuracy: 0.8, points: 400, coverage: 0.95, falseLabelRate: 0.12, perSample: [{}, {}, {}, {}] } };
+
+  it('reads accuracy, points, samples, abstained and false-label rate from the evaluate document', () => {
+    const m = measuredAccuracyFromEvaluateJson(JSON.stringify(doc), 'eval.json');
+    expect(m.accuracy).toBe(0.8);
+    expect(m.points).toBe(400);
+    expect(m.samples).toBe(4);
+    expect(m.scheme).toBe('leave-one-out');
+    expect(m.abstained).toBeCloseTo(0.05, 12);
+    expect(m.falseLabelRate).toBe(0.12);
+  });
+
+  it('throws InputError naming the file for text that is not evaluate output', () => {
+    expect(() => measuredAccuracyFromEvaluateJson('{"report": ', 'e.json')).toThrow(/^e\.json: is not valid JSON/);
+    expect(() => measuredAccuracyFromEvaluateJson('{"format":"cairn-template"}', 'e.json')).toThrow(InputError);
+    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, accuracy: 'high' } }), 'e.json')).toThrow(
+      'e.json: report.accuracy must be a finite number',
+    );
+    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, accuracy: 1.5 } }), 'e.json')).toThrow('must be in [0, 1]');
+    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, perSample: [] } }), 'e.json')).toThrow('measured nothing');
+  });
+});
+
+describe('buildMatchReport', () => {
+  const template = testTemplate({ cells: 12 });
+  const base = { template, templatePath: 'lab.json', method: 'ransac', hitRadius: 3, seed: 1 };
+
+  it('puts the verification caution first and summarises samples, points, proposals and the proposal-weighted mean confidence', () => {
+    const page = buildMatchReport({ ...base, rows: [row('a', 8, 0.9), row('b', 2, 0.4), row('c', 0, null, 'c.csv:3: column "x": not a number')], figures: [] });
+    expect(page.cautions[0]).toContain('a person must check every proposed label');
+    const value = (term: string) => page.summary.find((s) => s.term === term)?.value;
+    expect(value('samples')).toBe('3 (2 matched, 1 failed)');
+    expect(value('points')).toBe('30');
+    expect(value('proposed labels')).toBe('10 (33.3% of points)');
+    // (8 x 0.9 + 2 x 0.4) / 10 = 0.8
+    expect(value('mean confidence of proposals')).toBe('0.800');
+    expect(value('pose search stopped')).toBe('converged (2)');
+  });
+
+  it(`draws at most ${MATCH_REPORT_FIGURES} figures and says how many samples were matched in all`, () => {
+    const cell = template.cells[0];
+    const fig = { sampleId: 's', points: [{ coords: cell.mean.slice(), label: cell.label, confidence: 0.7, name: 'row 2' }] };
+    const rows = Array.from({ length: 15 }, (_, i) => row(`s${i}`, 1, 0.7));
+    const html = renderMatchHtml({ ...base, rows, figures: Array.from({ length: 15 }, (_, i) => ({ ...fig, sampleId: `s${i}` })) });
+    expect((html.match(/<figure>/g) ?? []).length).toBe(MATCH_REPORT_FIGURES);
+    expect(html).toContain(`first ${MATCH_REPORT_FIGURES} of 15 matched samples`);
+    expect(wellFormedProblems(html, { html: true })).toEqual([]);
+  });
+
+  it('quotes a measured accuracy in place of the "not measured" caution', () => {
+    const measured = measuredAccuracyFromEvaluateJson(
+      JSON.stringify({ scheme: '5-fold', report: { accuracy: 0.875, points: 800, coverage: 1, falseLabelRate: 0.125, perSample: [1, 2, 3, 4, 5] } }),
+      'e.json',
+    );
+    const page = buildMatchReport({ ...base, rows: [row('a', 1, 0.5)], figures: [], measured });
+    expect(page.cautions.join(' ')).toContain('gave the right label to 87.5% of labelled points');
+    expect(page.cautions.join(' ')).not.toContain('has not been measured');
+  });
+});
