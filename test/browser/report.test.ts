@@ -14,6 +14,7 @@ import { join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { chromium, type Browser, type Page } from 'playwright-core';
 import { buildInspectReport } from '../../src/report/inspect-report.js';
+import { renderMatchHtml } from '../../src/report/match-report.js';
 import { renderFigure, renderHtmlReport } from '../../src/report/html.js';
 import { matchedSampleFigureSvg, type MatchedPoint } from '../../src/report/svg/matched-figure.js';
 import { createRng, randomNormal } from '../../src/random.js';
@@ -48,6 +49,23 @@ function reportHtml(): string {
       },
     ],
   });
+}
+
+/** A `cairn match` page: 13 matched samples, so 12 figures (each with its own id prefix) and a note. */
+function matchHtml(): string {
+  const template = testTemplate({ cells: 30, flagged: 0 });
+  const rng = createRng(9);
+  const figures = Array.from({ length: 13 }, (_, s) => ({
+    sampleId: `gk-${20 + s}`,
+    points: template.cells.map((c, i) => ({
+      coords: c.mean.map((m) => m + 0.8 * randomNormal(rng)),
+      label: i % 7 === 6 ? null : c.label,
+      confidence: Math.min(1, 0.35 + 0.65 * rng()),
+      name: `row ${i + 2}`,
+    })),
+  }));
+  const rows = figures.map((f) => ({ id: f.sampleId, source: `${f.sampleId}.csv`, points: 30, proposed: 26, meanConfidence: 0.7, stopReason: 'converged', error: null }));
+  return renderMatchHtml({ template, templatePath: 'glimmerkin-crown.json', method: 'ransac', hitRadius: 3, seed: 1, rows, figures });
 }
 
 describe.skipIf(skip)('HTML report in headless Chromium', () => {
@@ -153,6 +171,30 @@ describe.skipIf(skip)('HTML report in headless Chromium', () => {
     await labelHeading.locator('button').click();
     const labels = await table.locator('tbody tr').evaluateAll((rows) => rows.map((r) => (r as HTMLTableRowElement).cells[0].textContent ?? ''));
     expect(labels).toEqual([...labels].sort((a, b) => a.localeCompare(b, undefined, { numeric: true })));
+  });
+
+  it('renders a match page: twelve matched-sample figures with non-zero size, cautions first, no error, no request', async () => {
+    const htmlPath = join(outDir, 'match-report.html');
+    writeFileSync(htmlPath, matchHtml());
+    const url = pathToFileURL(htmlPath).href;
+    const p = await browser!.newPage({ viewport: { width: 1200, height: 900 } });
+    const errors: string[] = [];
+    const asked: string[] = [];
+    p.on('console', (m) => {
+      if (m.type() === 'error') errors.push(m.text());
+    });
+    p.on('pageerror', (e) => errors.push(e.message));
+    p.on('request', (r) => asked.push(r.url()));
+    await p.goto(url, { waitUntil: 'load' });
+    const sizes = await p.$$eval('svg.cairn-matched-figure', (svgs) => svgs.map((s) => s.getBoundingClientRect()).map((r) => r.width * r.height));
+    expect(sizes).toHaveLength(12);
+    expect(Math.min(...sizes)).toBeGreaterThan(100 * 100);
+    expect(await p.locator('section.cautions').innerText()).toContain('a person must check every proposed label');
+    expect(await p.locator('body').innerText()).toContain('first 12 of 13 matched samples');
+    await p.screenshot({ path: join(outDir, 'match-report.png'), fullPage: false });
+    await p.close();
+    expect(errors).toEqual([]);
+    expect(asked).toEqual([url]);
   });
 
   it('writes a full-page screenshot to test-output/report.png', async () => {
