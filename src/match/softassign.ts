@@ -64,6 +64,14 @@ export interface PairGains {
  * grid, which must have been built with radius >= 3.5 * sqrt(inflation)).
  * With `positiveOnly`, pairs with g_ik <= 0 are left out (they can never be
  * matched; enough for the matchings, not for the posterior).
+ *
+ * Speed: a pair is first screened by the Euclidean bound
+ * e2 = p^T S_k^-1 p >= |p|^2 / lambda_max(S_k) (Rayleigh quotient), so that
+ * the full quadratic form is computed only for pairs that can pass (the
+ * bound is applied with a relative slack of 1e-9, so it never drops a pair
+ * the exact test would keep). With `scratch`, the returned arrays are views
+ * of buffers reused by the next call made with `scratch` (for callers that
+ * consume the table at once).
  */
 export function pairGains(
   model: CellModel,
@@ -72,6 +80,7 @@ export function pairGains(
   jacobian: number,
   params: MatchModelParameters,
   positiveOnly = false,
+  scratch = false,
 ): PairGains {
   const d = model.dim;
   const infl = params.inflation ?? 1;
@@ -83,23 +92,49 @@ export function pairGains(
   const n = mapped.length;
   const rowStart = new Int32Array(n + 1);
   let capacity = Math.max(64, n * 32);
-  let cells = new Int32Array(capacity), gains = new Float64Array(capacity), dists = new Float64Array(capacity);
+  let cells: Int32Array, gains: Float64Array, dists: Float64Array;
+  if (scratch) {
+    if (scratchCells.length < capacity) {
+      scratchCells = new Int32Array(capacity);
+      scratchGains = new Float64Array(capacity);
+      scratchDists = new Float64Array(capacity);
+    }
+    cells = scratchCells;
+    gains = scratchGains;
+    dists = scratchDists;
+    capacity = cells.length;
+  } else {
+    cells = new Int32Array(capacity);
+    gains = new Float64Array(capacity);
+    dists = new Float64Array(capacity);
+  }
   let used = 0;
   const limit = 12.25 * infl;
-  const means = model.means, prec = model.precisions, logDets = model.logDets;
+  const means = model.means, prec = model.precisions, logDets = model.logDets, maxStd = model.maxStd;
   const offsets = grid.offsets, list = grid.cells;
   const half = 0.5 / infl;
+  // Per cell: the largest |p|^2 that can still pass (e2 <= limit and, with positiveOnly, gain > 0).
+  const K = model.size;
+  const reach2 = new Float64Array(K);
+  for (let k = 0; k < K; k++) {
+    let lim = limit;
+    if (positiveOnly) lim = Math.min(lim, (base - 0.5 * logDets[k]) / half);
+    reach2[k] = lim < 0 ? -1 : lim * maxStd[k] * maxStd[k] * (1 + 1e-9) + 1e-12;
+  }
+  const origin = grid.origin, voxel = grid.voxel, shape = grid.shape;
   for (let i = 0; i < n; i++) {
     const y = mapped[i];
-    const v = voxelOf(grid, y);
+    const v = d === 3 ? voxelOf3(origin, voxel, shape, y[0], y[1], y[2]) : voxelOf(grid, y);
     if (v >= 0) {
       const y0 = y[0], y1 = d > 1 ? y[1] : 0, y2 = d > 2 ? y[2] : 0;
       for (let c = offsets[v]; c < offsets[v + 1]; c++) {
         const k = list[c];
         let e2: number;
         if (d === 3) {
-          const mo = k * 3, po = k * 9;
+          const mo = k * 3;
           const p0 = y0 - means[mo], p1 = y1 - means[mo + 1], p2 = y2 - means[mo + 2];
+          if (p0 * p0 + p1 * p1 + p2 * p2 > reach2[k]) continue;
+          const po = k * 9;
           e2 =
             p0 * (prec[po] * p0 + prec[po + 1] * p1 + prec[po + 2] * p2) +
             p1 * (prec[po + 3] * p0 + prec[po + 4] * p1 + prec[po + 5] * p2) +
@@ -125,6 +160,11 @@ export function pairGains(
           cells = nc;
           gains = ng;
           dists = nd;
+          if (scratch) {
+            scratchCells = nc;
+            scratchGains = ng;
+            scratchDists = nd;
+          }
         }
         cells[used] = k;
         gains[used] = gain;
@@ -135,6 +175,21 @@ export function pairGains(
     rowStart[i + 1] = used;
   }
   return { rowStart, cells: cells.subarray(0, used), gains: gains.subarray(0, used), distances: dists.subarray(0, used) };
+}
+
+let scratchCells = new Int32Array(0);
+let scratchGains = new Float64Array(0);
+let scratchDists = new Float64Array(0);
+
+/** voxelOf for d = 3 without the generic loop (same result). */
+function voxelOf3(origin: Float64Array, h: number, shape: Int32Array, y0: number, y1: number, y2: number): number {
+  const i0 = Math.floor((y0 - origin[0]) / h);
+  if (i0 < 0 || i0 >= shape[0]) return -1;
+  const i1 = Math.floor((y1 - origin[1]) / h);
+  if (i1 < 0 || i1 >= shape[1]) return -1;
+  const i2 = Math.floor((y2 - origin[2]) / h);
+  if (i2 < 0 || i2 >= shape[2]) return -1;
+  return (i0 * shape[1] + i1) * shape[2] + i2;
 }
 
 export interface Marginals {
@@ -222,12 +277,21 @@ export function greedyMatching(pairs: PairGains, points: number, cells: number):
     }
   const cellOfPoint = new Int32Array(points).fill(-1);
   if (count === 0) return { total: 0, cellOfPoint };
-  const rowOf = new Int32Array(P);
+  if (greedyRowOf.length < P) {
+    greedyRowOf = new Int32Array(Math.max(P, 2 * greedyRowOf.length));
+    greedyBucketOf = new Int32Array(greedyRowOf.length);
+  }
+  const rowOf = greedyRowOf, bucketOf = greedyBucketOf;
   for (let i = 0; i < points; i++) for (let j = rowStart[i]; j < rowStart[i + 1]; j++) rowOf[j] = i;
   const B = Math.max(16, count);
   const scale = (B - 1) / top;
-  const bucketStart = new Int32Array(B + 1);
-  const bucketOf = new Int32Array(P);
+  if (greedyBucketStart.length < B + 1) {
+    greedyBucketStart = new Int32Array(Math.max(B + 1, 2 * greedyBucketStart.length));
+    greedyFill = new Int32Array(greedyBucketStart.length);
+    greedyOrder = new Int32Array(greedyBucketStart.length);
+  }
+  const bucketStart = greedyBucketStart;
+  bucketStart.fill(0, 0, B + 1);
   for (let j = 0; j < P; j++) {
     if (!(gains[j] > 0)) continue;
     const b = Math.min(B - 1, Math.floor((top - gains[j]) * scale));
@@ -235,8 +299,9 @@ export function greedyMatching(pairs: PairGains, points: number, cells: number):
     bucketStart[b + 1]++;
   }
   for (let b = 0; b < B; b++) bucketStart[b + 1] += bucketStart[b];
-  const order = new Int32Array(count);
-  const fill = bucketStart.slice(0, B);
+  const order = greedyOrder;
+  const fill = greedyFill;
+  fill.set(bucketStart.subarray(0, B));
   for (let j = 0; j < P; j++) if (gains[j] > 0) order[fill[bucketOf[j]]++] = j;
   for (let b = 0; b < B; b++) {
     for (let x = bucketStart[b] + 1; x < bucketStart[b + 1]; x++) {
@@ -261,3 +326,10 @@ export function greedyMatching(pairs: PairGains, points: number, cells: number):
   }
   return { total, cellOfPoint };
 }
+
+// Scratch buffers of greedyMatching (reused across calls; single-threaded per worker).
+let greedyRowOf = new Int32Array(0);
+let greedyBucketOf = new Int32Array(0);
+let greedyBucketStart = new Int32Array(0);
+let greedyFill = new Int32Array(0);
+let greedyOrder = new Int32Array(0);
