@@ -9,10 +9,12 @@
  * folder, runs the built CLI (`node bin/cairn.js match ... --jobs 2
  * --max-trials 50 --no-timestamp`) under /usr/bin/time -v, and prints the
  * peak resident set size of the whole process (main thread and workers share
- * it) and the wall time. Streaming shows as a peak that does not grow with N.
+ * it) and the wall time. Streaming shows as a peak that does not grow with N;
+ * every --every seconds (default 30) it also prints the resident set size
+ * (VmRSS from /proc) against the number of CSVs written so far.
  */
-import { spawnSync } from 'node:child_process';
-import { mkdirSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { spawn } from 'node:child_process';
+import { existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -30,6 +32,19 @@ const samples = Number(argValue('samples', '10000'));
 const jobs = argValue('jobs', '2');
 const maxTrials = argValue('max-trials', '50');
 const keep = process.argv.includes('--keep');
+const every = Number(argValue('every', '30'));
+
+/** VmRSS of the child of `pid` (the node process under /usr/bin/time), MiB, or null. */
+function childRss(pid: number): number | null {
+  try {
+    const kids = readFileSync(`/proc/${pid}/task/${pid}/children`, 'utf8').trim().split(/\s+/).filter(Boolean);
+    if (kids.length === 0) return null;
+    const kb = /VmRSS:\s+(\d+) kB/.exec(readFileSync(`/proc/${kids[0]}/status`, 'utf8'))?.[1];
+    return kb === undefined ? null : Number(kb) / 1024;
+  } catch {
+    return null;
+  }
+}
 const root = resolve(dirname(fileURLToPath(import.meta.url)), '../..');
 
 const dir = mkdtempSync(join(tmpdir(), 'cairn-scale-'));
@@ -47,7 +62,18 @@ try {
     names.push(name);
   }
   const args = ['-v', process.execPath, join(root, 'bin/cairn.js'), 'match', 'template.json', ...names, '-o', 'out', '--jobs', jobs, '--max-trials', maxTrials, '--no-timestamp'];
-  const run = spawnSync('/usr/bin/time', args, { cwd: dir, encoding: 'utf8', maxBuffer: 1 << 30 });
+  const child = spawn('/usr/bin/time', args, { cwd: dir, stdio: ['ignore', 'ignore', 'pipe'] });
+  let stderr = '';
+  child.stderr.on('data', (d) => (stderr += String(d)));
+  const start = performance.now();
+  const timer = setInterval(() => {
+    const rssNow = childRss(child.pid as number);
+    const done = existsSync(join(dir, 'out')) ? readdirSync(join(dir, 'out')).length : 0;
+    if (rssNow !== null) console.log(`  ${((performance.now() - start) / 1000).toFixed(0)} s: ${done} CSVs written, RSS ${rssNow.toFixed(1)} MiB`);
+  }, every * 1000);
+  const status = await new Promise<number | null>((done) => child.on('exit', (code) => done(code)));
+  clearInterval(timer);
+  const run = { status, stderr };
   const rss = /Maximum resident set size \(kbytes\): (\d+)/.exec(run.stderr)?.[1];
   const wall = /Elapsed \(wall clock\) time \(h:mm:ss or m:ss\): (\S+)/.exec(run.stderr)?.[1];
   const cpu = /User time \(seconds\): (\S+)/.exec(run.stderr)?.[1];
