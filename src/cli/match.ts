@@ -240,7 +240,7 @@ export async function runMatch(
   // Stream: compact entries by position; the figures of the first samples for --html.
   const entries: (MatchSampleSummary | undefined)[] = new Array(total);
   const figures = new Map<number, MatchedFigureInput>();
-  const failEntry = (ordinal: number, id: string, source: string, error: string, points = 0): void => {
+  const failEntry = (ordinal: number, id: string, source: string, error: string, points = 0, seconds = 0): void => {
     entries[ordinal] = {
       id,
       source,
@@ -254,7 +254,7 @@ export async function runMatch(
       trials: null,
       stopReason: null,
       nonRigid: null,
-      ...(timestamp ? { seconds: 0 } : {}),
+      ...(timestamp ? { seconds } : {}),
       error,
     };
   };
@@ -287,7 +287,7 @@ export async function runMatch(
     const s = job.sample;
     const r = t.result;
     if (!r) {
-      failEntry(job.ordinal, s.id, s.source, t.error ?? 'could not be matched', s.coords.length);
+      failEntry(job.ordinal, s.id, s.source, t.error ?? 'could not be matched', s.coords.length, t.seconds);
       return;
     }
     const out = csvPath(s.id);

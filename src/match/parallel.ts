@@ -244,8 +244,8 @@ export async function matchSampleStream<J extends SampleJob>(
           ? { result: null, error: m.error.message, seconds: m.seconds ?? 0 }
           : { result: m.result as MatchResult, error: null, seconds: m.seconds as number };
         try {
-          onResult(m.index, job, timed);
           completed++;
+          onResult(m.index, job, timed);
         } catch (e) {
           finish({ error: e });
           return;
