@@ -191,31 +191,39 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
   const k = cells.length;
   let consensus = cells.map((c) => start.consensus.get(c) as number[]);
   let transforms = start.transforms;
-  let kept = entries.map((e) => e.labels.map(() => true));
-  let distance = entries.map((e) => e.labels.map(() => Number.NaN));
+  // Per member, flat storage (point j, axis a at j * dim + a): own and aligned
+  // coordinates, cell index, kept flag. Transforms are applied in place.
+  const own = entries.map((e) => flatPoints(e.coords, dim));
+  const aligned = entries.map((e) => new Float64Array(e.labels.length * dim));
+  const cellOfFlat = cellOf.map((row) => Int32Array.from(row));
+  let kept: Uint8Array[] = entries.map((e) => new Uint8Array(e.labels.length).fill(1));
+  let distance: Float64Array[] = entries.map((e) => new Float64Array(e.labels.length).fill(Number.NaN));
   const reference = settings.flagReference ?? 'student-t';
   const cutoff = (n: number) => predictiveCutoff(n, dim, settings.priorStrength, settings.flagProbability, reference);
   const direction = settings.memberFit ?? 'template-to-sample';
+  const applyAll = () => {
+    for (let i = 0; i < entries.length; i++) applyTransformInto(transforms[i], own[i], aligned[i], dim);
+  };
 
   // Initial frame.
   let frame = frameMap(consensus, entries, cellOf, kept, transforms, kind);
   consensus = applyTransform(frame, consensus);
   transforms = transforms.map((t) => composeTransforms(frame, t));
-  let aligned = entries.map((e, i) => applyTransform(transforms[i], e.coords));
+  applyAll();
 
   const iterations: IterationDiagnostics[] = [];
   let converged = false;
   for (let iteration = 1; iteration <= settings.maxIterations; iteration++) {
     // 2. Align.
     transforms = entries.map((e, i) => alignOne(e, cellOf[i], kept[i], consensus, kind, minPoints, transforms[i], direction));
-    aligned = entries.map((e, i) => applyTransform(transforms[i], e.coords));
+    applyAll();
     // 3. Consensus.
-    let next = consensusOf(aligned, cellOf, kept, k, dim);
+    let next = consensusOf(aligned, cellOfFlat, kept, k, dim);
     // 4. Frame.
     frame = frameMap(next, entries, cellOf, kept, transforms, kind, direction === 'template-to-sample');
     next = applyTransform(frame, next);
     transforms = transforms.map((t) => composeTransforms(frame, t));
-    aligned = entries.map((e, i) => applyTransform(transforms[i], e.coords));
+    applyAll();
     let shift = 0;
     for (let c = 0; c < k; c++) for (let a = 0; a < dim; a++) shift += (next[c][a] - consensus[c][a]) ** 2;
     const meanShift = Math.sqrt(shift / k);
@@ -223,30 +231,80 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
     // 5. Robust weights.
     let changed = false;
     if (settings.robust === 'trimmed') {
-      const w = robustWeights(aligned, cellOf, kept, k, dim, settings.priorStrength, cutoff);
-      for (let i = 0; i < entries.length && !changed; i++) for (let j = 0; j < w.kept[i].length; j++) if (w.kept[i][j] !== kept[i][j]) changed = true;
+      const w = robustWeightsFlat(aligned, cellOfFlat, kept, k, dim, settings.priorStrength, cutoff);
+      for (let i = 0; i < entries.length && !changed; i++) {
+        const a = w.kept[i], b = kept[i];
+        for (let j = 0; j < a.length; j++) if (a[j] !== b[j]) changed = true;
+      }
       kept = w.kept;
       distance = w.distance;
     }
     let res = 0, nres = 0, down = 0;
-    for (let i = 0; i < entries.length; i++)
-      for (let j = 0; j < aligned[i].length; j++) {
-        if (!kept[i][j]) {
+    for (let i = 0; i < entries.length; i++) {
+      const y = aligned[i], cellsI = cellOfFlat[i], keptI = kept[i];
+      for (let j = 0; j < keptI.length; j++) {
+        if (!keptI[j]) {
           down++;
           continue;
         }
-        const m = consensus[cellOf[i][j]];
-        for (let a = 0; a < dim; a++) res += (aligned[i][j][a] - m[a]) ** 2;
+        const m = consensus[cellsI[j]];
+        for (let a = 0; a < dim; a++) res += (y[j * dim + a] - m[a]) ** 2;
         nres++;
       }
+    }
     iterations.push({ iteration, meanShift, rmsResidual: Math.sqrt(res / Math.max(1, nres)), downweighted: down });
     if (meanShift < settings.tolerance && !changed) {
       converged = true;
       break;
     }
   }
-  return { dim, cells, entries, transforms, cellOf, aligned, kept, distance, consensus, iterations, converged, skipped };
+  return {
+    dim,
+    cells,
+    entries,
+    transforms,
+    cellOf,
+    aligned: aligned.map((y) => nestedPoints(y, dim)),
+    kept: kept.map((row) => Array.from(row, (v) => v === 1)),
+    distance: distance.map((row) => Array.from(row)),
+    consensus,
+    iterations,
+    converged,
+    skipped,
+  };
 }
+
+/** Points (n x d) as one row-major Float64Array. */
+function flatPoints(points: Points, dim: number): Float64Array {
+  const out = new Float64Array(points.length * dim);
+  for (let j = 0; j < points.length; j++) for (let a = 0; a < dim; a++) out[j * dim + a] = points[j][a];
+  return out;
+}
+
+/** A row-major Float64Array of points as n x d nested arrays. */
+function nestedPoints(flat: Float64Array, dim: number): number[][] {
+  const out: number[][] = [];
+  for (let j = 0; j < flat.length; j += dim) out.push(Array.from(flat.subarray(j, j + dim)));
+  return out;
+}
+
+/**
+ * y_j = A x_j + t for every point of a flat row-major array, written into `out`;
+ * the same sums in the same order as applyTransform (geometry/transform.ts), so
+ * the results are equal to the bit.
+ */
+function applyTransformInto(t: Transform, x: Float64Array, out: Float64Array, dim: number): void {
+  const A = t.linear, tr = t.translation;
+  for (let p = 0; p < x.length; p += dim) {
+    for (let r = 0; r < dim; r++) {
+      const row = A[r];
+      let s = 0;
+      for (let c = 0; c < dim; c++) s += row[c] * x[p + c];
+      out[p + r] = s + tr[r];
+    }
+  }
+}
+
 
 /**
  * Greedy start (module comment, step 1). Each step takes the remaining sample
@@ -375,7 +433,7 @@ function initialise(
 function alignOne(
   e: LabelledEntry,
   cellOf: readonly number[],
-  kept: readonly boolean[],
+  kept: ArrayLike<number>,
   consensus: Points,
   kind: TemplateSettings['alignment'],
   minPoints: number,
@@ -421,28 +479,35 @@ export function fitMemberMap(
   return invertTransform(fitTransform(kind, template, own).transform);
 }
 
-function consensusOf(aligned: readonly (readonly (readonly number[])[])[], cellOf: readonly (readonly number[])[], kept: readonly (readonly boolean[])[], k: number, dim: number): number[][] {
-  const sum = zeros(k, dim), all = zeros(k, dim);
-  const n = new Array<number>(k).fill(0), nAll = new Array<number>(k).fill(0);
-  for (let i = 0; i < aligned.length; i++)
-    for (let j = 0; j < aligned[i].length; j++) {
-      const c = cellOf[i][j];
-      const y = aligned[i][j];
-      for (let a = 0; a < dim; a++) all[c][a] += y[a];
+function consensusOf(aligned: readonly Float64Array[], cellOf: readonly Int32Array[], kept: readonly Uint8Array[], k: number, dim: number): number[][] {
+  const sum = new Float64Array(k * dim), all = new Float64Array(k * dim);
+  const n = new Int32Array(k), nAll = new Int32Array(k);
+  for (let i = 0; i < aligned.length; i++) {
+    const y = aligned[i], cellsI = cellOf[i], keptI = kept[i];
+    for (let j = 0; j < cellsI.length; j++) {
+      const c = cellsI[j];
+      for (let a = 0; a < dim; a++) all[c * dim + a] += y[j * dim + a];
       nAll[c]++;
-      if (kept[i][j]) {
-        for (let a = 0; a < dim; a++) sum[c][a] += y[a];
+      if (keptI[j]) {
+        for (let a = 0; a < dim; a++) sum[c * dim + a] += y[j * dim + a];
         n[c]++;
       }
     }
-  return sum.map((row, c) => (n[c] > 0 ? row.map((v) => v / n[c]) : all[c].map((v) => v / nAll[c])));
+  }
+  const out: number[][] = [];
+  for (let c = 0; c < k; c++) {
+    const row = new Array<number>(dim);
+    for (let a = 0; a < dim; a++) row[a] = n[c] > 0 ? sum[c * dim + a] / n[c] : all[c * dim + a] / nAll[c];
+    out.push(row);
+  }
+  return out;
 }
 
 function frameMap(
   consensus: Points,
   entries: readonly LabelledEntry[],
   cellOf: readonly (readonly number[])[],
-  kept: readonly (readonly boolean[])[],
+  kept: readonly ArrayLike<number>[],
   transforms: readonly Transform[],
   kind: TemplateSettings['alignment'],
   transformsFitTemplateToSample = false,
@@ -502,63 +567,111 @@ export function robustWeights(
   priorStrength: number,
   cutoff: (n: number) => number,
 ): { kept: boolean[][]; distance: number[][] } {
-  // Kept statistics per cell: n, mean, scatter (two passes for accuracy).
-  const n = new Array<number>(k).fill(0);
-  const mean = zeros(k, dim);
-  for (let i = 0; i < aligned.length; i++)
-    for (let j = 0; j < aligned[i].length; j++)
-      if (kept[i][j]) {
-        const c = cellOf[i][j];
-        n[c]++;
-        for (let a = 0; a < dim; a++) mean[c][a] += aligned[i][j][a];
-      }
-  for (let c = 0; c < k; c++) if (n[c] > 0) for (let a = 0; a < dim; a++) mean[c][a] /= n[c];
-  const scatter = Array.from({ length: k }, () => zeros(dim, dim));
-  for (let i = 0; i < aligned.length; i++)
-    for (let j = 0; j < aligned[i].length; j++)
-      if (kept[i][j]) {
-        const c = cellOf[i][j];
-        const y = aligned[i][j];
-        for (let a = 0; a < dim; a++) for (let b = 0; b < dim; b++) scatter[c][a][b] += (y[a] - mean[c][a]) * (y[b] - mean[c][b]);
-      }
-  const pooled = pooledCovariance(scatter.map((s, c) => ({ n: n[c], scatter: s })), dim);
-  const outKept: boolean[][] = [], outDist: number[][] = [];
-  const r = new Array<number>(dim);
-  const cov = zeros(dim, dim);
-  const m1 = new Array<number>(dim);
-  const z = new Array<number>(dim);
-  const cutoffs: number[] = [];
-  const cutoffAt = (k: number) => (cutoffs[k] ??= cutoff(k));
+  const w = robustWeightsFlat(
+    aligned.map((rows) => flatPoints(rows, dim)),
+    cellOf.map((row) => Int32Array.from(row)),
+    kept.map((row) => Uint8Array.from(row, (v) => (v ? 1 : 0))),
+    k,
+    dim,
+    priorStrength,
+    cutoff,
+  );
+  return { kept: w.kept.map((row) => Array.from(row, (v) => v === 1)), distance: w.distance.map((row) => Array.from(row)) };
+}
+
+/**
+ * robustWeights on flat storage: per member, aligned points row-major
+ * (point j, axis a at j * dim + a), cell indices, kept flags (1 = kept).
+ */
+function robustWeightsFlat(
+  aligned: readonly Float64Array[],
+  cellOf: readonly Int32Array[],
+  kept: readonly Uint8Array[],
+  k: number,
+  dim: number,
+  priorStrength: number,
+  cutoff: (n: number) => number,
+): { kept: Uint8Array[]; distance: Float64Array[] } {
+  // Kept statistics per cell: n, mean, scatter (two passes for accuracy), on flat
+  // typed arrays (mean k x d, scatter k x d x d row-major); same sums in the same order.
+  const dd = dim * dim;
+  const n = new Int32Array(k);
+  const mean = new Float64Array(k * dim);
   for (let i = 0; i < aligned.length; i++) {
-    const rowKept: boolean[] = [], rowDist: number[] = [];
-    for (let j = 0; j < aligned[i].length; j++) {
-      const c = cellOf[i][j];
-      const y = aligned[i][j];
+    const y = aligned[i], cellsI = cellOf[i], keptI = kept[i];
+    for (let j = 0; j < cellsI.length; j++)
+      if (keptI[j]) {
+        const c = cellsI[j];
+        n[c]++;
+        for (let a = 0; a < dim; a++) mean[c * dim + a] += y[j * dim + a];
+      }
+  }
+  for (let c = 0; c < k; c++) if (n[c] > 0) for (let a = 0; a < dim; a++) mean[c * dim + a] /= n[c];
+  const scatter = new Float64Array(k * dd);
+  for (let i = 0; i < aligned.length; i++) {
+    const y = aligned[i], cellsI = cellOf[i], keptI = kept[i];
+    for (let j = 0; j < cellsI.length; j++)
+      if (keptI[j]) {
+        const c = cellsI[j];
+        const yo = j * dim, mo = c * dim, so = c * dd;
+        for (let a = 0; a < dim; a++) {
+          const ya = y[yo + a] - mean[mo + a];
+          for (let b = 0; b < dim; b++) scatter[so + a * dim + b] += ya * (y[yo + b] - mean[mo + b]);
+        }
+      }
+  }
+  const scatters: { n: number; scatter: number[][] }[] = [];
+  for (let c = 0; c < k; c++) {
+    const m: number[][] = [];
+    for (let a = 0; a < dim; a++) m.push(Array.from(scatter.subarray(c * dd + a * dim, c * dd + (a + 1) * dim)));
+    scatters.push({ n: n[c], scatter: m });
+  }
+  const pooled = pooledCovariance(scatters, dim);
+  const pooledFlat = new Float64Array(dd);
+  for (let a = 0; a < dim; a++) for (let b = 0; b < dim; b++) pooledFlat[a * dim + b] = pooled[a][b];
+  const outKept: Uint8Array[] = [], outDist: Float64Array[] = [];
+  const r = new Float64Array(dim);
+  const cov = new Float64Array(dd);
+  const m1 = new Float64Array(dim);
+  const z = new Float64Array(dim);
+  // Cut-off radius by leave-one-out count, computed once per count (NaN = not yet).
+  let maxN = 0;
+  for (let c = 0; c < k; c++) if (n[c] > maxN) maxN = n[c];
+  const cutoffs = new Float64Array(maxN + 1).fill(Number.NaN);
+  for (let i = 0; i < aligned.length; i++) {
+    const y = aligned[i], cellsI = cellOf[i], keptI = kept[i];
+    const rowKept = new Uint8Array(cellsI.length);
+    const rowDist = new Float64Array(cellsI.length);
+    for (let j = 0; j < cellsI.length; j++) {
+      const c = cellsI[j];
+      const yo = j * dim, mo = c * dim, so = c * dd;
       let n1 = n[c];
       for (let a = 0; a < dim; a++) {
-        r[a] = y[a] - mean[c][a];
-        m1[a] = mean[c][a];
+        r[a] = y[yo + a] - mean[mo + a];
+        m1[a] = mean[mo + a];
       }
-      const self = kept[i][j];
+      const self = keptI[j] === 1;
       if (self) {
         n1 = n[c] - 1;
         // m' = (n m - y) / (n - 1); W' = W - n/(n-1) (y - m)(y - m)^T.
-        if (n1 >= 1) for (let a = 0; a < dim; a++) m1[a] = mean[c][a] - r[a] / n1;
+        if (n1 >= 1) for (let a = 0; a < dim; a++) m1[a] = mean[mo + a] - r[a] / n1;
       }
       if (n1 < 2) {
-        rowKept.push(true);
-        rowDist.push(Number.NaN);
+        rowKept[j] = 1;
+        rowDist[j] = Number.NaN;
         continue;
       }
       const f = self ? n[c] / n1 : 0;
       const denom = priorStrength + n1 - 1;
       const infl = 1 + 1 / n1;
       for (let a = 0; a < dim; a++)
-        for (let b = 0; b <= a; b++) cov[a][b] = (infl * (priorStrength * pooled[a][b] + scatter[c][a][b] - f * r[a] * r[b])) / denom;
-      for (let a = 0; a < dim; a++) r[a] = y[a] - m1[a];
+        for (let b = 0; b <= a; b++) cov[a * dim + b] = (infl * (priorStrength * pooledFlat[a * dim + b] + scatter[so + a * dim + b] - f * r[a] * r[b])) / denom;
+      for (let a = 0; a < dim; a++) r[a] = y[yo + a] - m1[a];
       const d2 = choleskyQuadraticForm(cov, r, dim, z);
-      rowKept.push(d2 <= cutoffAt(n1));
-      rowDist.push(Math.sqrt(d2));
+      let limit = cutoffs[n1];
+      if (Number.isNaN(limit)) limit = cutoffs[n1] = cutoff(n1);
+      rowKept[j] = d2 <= limit ? 1 : 0;
+      rowDist[j] = Math.sqrt(d2);
     }
     outKept.push(rowKept);
     outDist.push(rowDist);
@@ -568,27 +681,27 @@ export function robustWeights(
 
 /**
  * r^T C^-1 r for a symmetric positive definite C given by its lower triangle
- * (upper triangle ignored), d <= 3, by the Cholesky factor C = L L^T without
+ * (upper triangle ignored; flat row-major d x d), d <= 3, by the Cholesky factor C = L L^T without
  * allocating: z = L^-1 r, result |z|^2 (Golub & Van Loan, Matrix Computations,
  * Algorithm 4.2.1). Throws FitError when C is not positive definite. `z` is
  * scratch space of length d.
  */
-function choleskyQuadraticForm(c: number[][], r: readonly number[], d: number, z: number[]): number {
+function choleskyQuadraticForm(c: Float64Array, r: Float64Array, d: number, z: Float64Array): number {
   // d <= 3: factor into a local lower-triangular array.
-  const l00 = c[0][0];
+  const l00 = c[0];
   if (!(l00 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 0 is ${l00})`);
   const L00 = Math.sqrt(l00);
   z[0] = r[0] / L00;
   if (d === 1) return z[0] * z[0];
-  const L10 = c[1][0] / L00;
-  const p1 = c[1][1] - L10 * L10;
+  const L10 = c[d] / L00;
+  const p1 = c[d + 1] - L10 * L10;
   if (!(p1 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 1 is ${p1})`);
   const L11 = Math.sqrt(p1);
   z[1] = (r[1] - L10 * z[0]) / L11;
   if (d === 2) return z[0] * z[0] + z[1] * z[1];
-  const L20 = c[2][0] / L00;
-  const L21 = (c[2][1] - L20 * L10) / L11;
-  const p2 = c[2][2] - L20 * L20 - L21 * L21;
+  const L20 = c[2 * d] / L00;
+  const L21 = (c[2 * d + 1] - L20 * L10) / L11;
+  const p2 = c[2 * d + 2] - L20 * L20 - L21 * L21;
   if (!(p2 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 2 is ${p2})`);
   z[2] = (r[2] - L20 * z[0] - L21 * z[1]) / Math.sqrt(p2);
   return z[0] * z[0] + z[1] * z[1] + z[2] * z[2];
