@@ -29,7 +29,7 @@ function folderBytes(dir: string): Map<string, string> {
   return new Map(readdirSync(dir).sort().map((f) => [f, readFileSync(join(dir, f), 'latin1')]));
 }
 
-describe('cairn match on a batch', () => {
+describe('cairn match on a batch', { timeout: 180_000 }, () => {
   let dir = '';
   let templateFile = '';
   let layout: Layout;
