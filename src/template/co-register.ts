@@ -248,7 +248,10 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
           continue;
         }
         const m = consensus[cellsI[j]];
-        for (let a = 0; a < dim; a++) res += (y[j * dim + a] - m[a]) ** 2;
+        for (let a = 0; a < dim; a++) {
+          const e = y[j * dim + a] - m[a];
+          res += e * e;
+        }
         nres++;
       }
     }
@@ -265,8 +268,16 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
     transforms,
     cellOf,
     aligned: aligned.map((y) => nestedPoints(y, dim)),
-    kept: kept.map((row) => Array.from(row, (v) => v === 1)),
-    distance: distance.map((row) => Array.from(row)),
+    kept: kept.map((row) => {
+      const out = new Array<boolean>(row.length);
+      for (let j = 0; j < row.length; j++) out[j] = row[j] === 1;
+      return out;
+    }),
+    distance: distance.map((row) => {
+      const out = new Array<number>(row.length);
+      for (let j = 0; j < row.length; j++) out[j] = row[j];
+      return out;
+    }),
     consensus,
     iterations,
     converged,
@@ -284,7 +295,11 @@ function flatPoints(points: Points, dim: number): Float64Array {
 /** A row-major Float64Array of points as n x d nested arrays. */
 function nestedPoints(flat: Float64Array, dim: number): number[][] {
   const out: number[][] = [];
-  for (let j = 0; j < flat.length; j += dim) out.push(Array.from(flat.subarray(j, j + dim)));
+  for (let j = 0; j < flat.length; j += dim) {
+    const row = new Array<number>(dim);
+    for (let a = 0; a < dim; a++) row[a] = flat[j + a];
+    out.push(row);
+  }
   return out;
 }
 
