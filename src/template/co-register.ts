@@ -239,22 +239,10 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
       kept = w.kept;
       distance = w.distance;
     }
-    let res = 0, nres = 0, down = 0;
-    for (let i = 0; i < entries.length; i++) {
-      const y = aligned[i], cellsI = cellOfFlat[i], keptI = kept[i];
-      for (let j = 0; j < keptI.length; j++) {
-        if (!keptI[j]) {
-          down++;
-          continue;
-        }
-        const m = consensus[cellsI[j]];
-        for (let a = 0; a < dim; a++) {
-          const e = y[j * dim + a] - m[a];
-          res += e * e;
-        }
-        nres++;
-      }
-    }
+    // acc: residual sum of squares, kept count, flagged count (summed in member order).
+    const acc = new Float64Array(3);
+    for (let i = 0; i < entries.length; i++) addMemberResiduals(aligned[i], cellOfFlat[i], kept[i], consensus, dim, acc);
+    const res = acc[0], nres = acc[1], down = acc[2];
     iterations.push({ iteration, meanShift, rmsResidual: Math.sqrt(res / Math.max(1, nres)), downweighted: down });
     if (meanShift < settings.tolerance && !changed) {
       converged = true;
@@ -283,6 +271,21 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
     converged,
     skipped,
   };
+}
+
+function addMemberResiduals(y: Float64Array, cells: Int32Array, kept: Uint8Array, consensus: Points, dim: number, acc: Float64Array): void {
+  for (let j = 0; j < kept.length; j++) {
+    if (!kept[j]) {
+      acc[2]++;
+      continue;
+    }
+    const m = consensus[cells[j]];
+    for (let a = 0; a < dim; a++) {
+      const e = y[j * dim + a] - m[a];
+      acc[0] += e * e;
+    }
+    acc[1]++;
+  }
 }
 
 /** Points (n x d) as one row-major Float64Array. */
@@ -497,18 +500,7 @@ export function fitMemberMap(
 function consensusOf(aligned: readonly Float64Array[], cellOf: readonly Int32Array[], kept: readonly Uint8Array[], k: number, dim: number): number[][] {
   const sum = new Float64Array(k * dim), all = new Float64Array(k * dim);
   const n = new Int32Array(k), nAll = new Int32Array(k);
-  for (let i = 0; i < aligned.length; i++) {
-    const y = aligned[i], cellsI = cellOf[i], keptI = kept[i];
-    for (let j = 0; j < cellsI.length; j++) {
-      const c = cellsI[j];
-      for (let a = 0; a < dim; a++) all[c * dim + a] += y[j * dim + a];
-      nAll[c]++;
-      if (keptI[j]) {
-        for (let a = 0; a < dim; a++) sum[c * dim + a] += y[j * dim + a];
-        n[c]++;
-      }
-    }
-  }
+  for (let i = 0; i < aligned.length; i++) addMemberToConsensus(aligned[i], cellOf[i], kept[i], sum, all, n, nAll, dim);
   const out: number[][] = [];
   for (let c = 0; c < k; c++) {
     const row = new Array<number>(dim);
@@ -516,6 +508,18 @@ function consensusOf(aligned: readonly Float64Array[], cellOf: readonly Int32Arr
     out.push(row);
   }
   return out;
+}
+
+function addMemberToConsensus(y: Float64Array, cells: Int32Array, kept: Uint8Array, sum: Float64Array, all: Float64Array, n: Int32Array, nAll: Int32Array, dim: number): void {
+  for (let j = 0; j < cells.length; j++) {
+    const c = cells[j];
+    for (let a = 0; a < dim; a++) all[c * dim + a] += y[j * dim + a];
+    nAll[c]++;
+    if (kept[j]) {
+      for (let a = 0; a < dim; a++) sum[c * dim + a] += y[j * dim + a];
+      n[c]++;
+    }
+  }
 }
 
 function frameMap(
@@ -612,29 +616,12 @@ function robustWeightsFlat(
   const dd = dim * dim;
   const n = new Int32Array(k);
   const mean = new Float64Array(k * dim);
-  for (let i = 0; i < aligned.length; i++) {
-    const y = aligned[i], cellsI = cellOf[i], keptI = kept[i];
-    for (let j = 0; j < cellsI.length; j++)
-      if (keptI[j]) {
-        const c = cellsI[j];
-        n[c]++;
-        for (let a = 0; a < dim; a++) mean[c * dim + a] += y[j * dim + a];
-      }
-  }
+  // Per-member helpers (small functions called once per member are optimised by the JIT
+  // within the first build; one long loop in a function called 3 times per build is not).
+  for (let i = 0; i < aligned.length; i++) addMemberToMeans(aligned[i], cellOf[i], kept[i], n, mean, dim);
   for (let c = 0; c < k; c++) if (n[c] > 0) for (let a = 0; a < dim; a++) mean[c * dim + a] /= n[c];
   const scatter = new Float64Array(k * dd);
-  for (let i = 0; i < aligned.length; i++) {
-    const y = aligned[i], cellsI = cellOf[i], keptI = kept[i];
-    for (let j = 0; j < cellsI.length; j++)
-      if (keptI[j]) {
-        const c = cellsI[j];
-        const yo = j * dim, mo = c * dim, so = c * dd;
-        for (let a = 0; a < dim; a++) {
-          const ya = y[yo + a] - mean[mo + a];
-          for (let b = 0; b < dim; b++) scatter[so + a * dim + b] += ya * (y[yo + b] - mean[mo + b]);
-        }
-      }
-  }
+  for (let i = 0; i < aligned.length; i++) addMemberToScatter(aligned[i], cellOf[i], kept[i], mean, scatter, dim);
   const scatters: { n: number; scatter: number[][] }[] = [];
   for (let c = 0; c < k; c++) {
     const m: number[][] = [];
@@ -645,53 +632,96 @@ function robustWeightsFlat(
   const pooledFlat = new Float64Array(dd);
   for (let a = 0; a < dim; a++) for (let b = 0; b < dim; b++) pooledFlat[a * dim + b] = pooled[a][b];
   const outKept: Uint8Array[] = [], outDist: Float64Array[] = [];
-  const r = new Float64Array(dim);
-  const cov = new Float64Array(dd);
-  const m1 = new Float64Array(dim);
-  const z = new Float64Array(dim);
+  const scratch = new Float64Array(dd + 3 * dim);
   // Cut-off radius by leave-one-out count, computed once per count (NaN = not yet).
   let maxN = 0;
   for (let c = 0; c < k; c++) if (n[c] > maxN) maxN = n[c];
   const cutoffs = new Float64Array(maxN + 1).fill(Number.NaN);
   for (let i = 0; i < aligned.length; i++) {
-    const y = aligned[i], cellsI = cellOf[i], keptI = kept[i];
-    const rowKept = new Uint8Array(cellsI.length);
-    const rowDist = new Float64Array(cellsI.length);
-    for (let j = 0; j < cellsI.length; j++) {
-      const c = cellsI[j];
-      const yo = j * dim, mo = c * dim, so = c * dd;
-      let n1 = n[c];
-      for (let a = 0; a < dim; a++) {
-        r[a] = y[yo + a] - mean[mo + a];
-        m1[a] = mean[mo + a];
-      }
-      const self = keptI[j] === 1;
-      if (self) {
-        n1 = n[c] - 1;
-        // m' = (n m - y) / (n - 1); W' = W - n/(n-1) (y - m)(y - m)^T.
-        if (n1 >= 1) for (let a = 0; a < dim; a++) m1[a] = mean[mo + a] - r[a] / n1;
-      }
-      if (n1 < 2) {
-        rowKept[j] = 1;
-        rowDist[j] = Number.NaN;
-        continue;
-      }
-      const f = self ? n[c] / n1 : 0;
-      const denom = priorStrength + n1 - 1;
-      const infl = 1 + 1 / n1;
-      for (let a = 0; a < dim; a++)
-        for (let b = 0; b <= a; b++) cov[a * dim + b] = (infl * (priorStrength * pooledFlat[a * dim + b] + scatter[so + a * dim + b] - f * r[a] * r[b])) / denom;
-      for (let a = 0; a < dim; a++) r[a] = y[yo + a] - m1[a];
-      const d2 = choleskyQuadraticForm(cov, r, dim, z);
-      let limit = cutoffs[n1];
-      if (Number.isNaN(limit)) limit = cutoffs[n1] = cutoff(n1);
-      rowKept[j] = d2 <= limit ? 1 : 0;
-      rowDist[j] = Math.sqrt(d2);
-    }
+    const rowKept = new Uint8Array(cellOf[i].length);
+    const rowDist = new Float64Array(cellOf[i].length);
+    weighMember(aligned[i], cellOf[i], kept[i], n, mean, scatter, pooledFlat, priorStrength, dim, cutoffs, cutoff, scratch, rowKept, rowDist);
     outKept.push(rowKept);
     outDist.push(rowDist);
   }
   return { kept: outKept, distance: outDist };
+}
+
+function addMemberToMeans(y: Float64Array, cells: Int32Array, kept: Uint8Array, n: Int32Array, mean: Float64Array, dim: number): void {
+  for (let j = 0; j < cells.length; j++)
+    if (kept[j]) {
+      const c = cells[j];
+      n[c]++;
+      for (let a = 0; a < dim; a++) mean[c * dim + a] += y[j * dim + a];
+    }
+}
+
+function addMemberToScatter(y: Float64Array, cells: Int32Array, kept: Uint8Array, mean: Float64Array, scatter: Float64Array, dim: number): void {
+  const dd = dim * dim;
+  for (let j = 0; j < cells.length; j++)
+    if (kept[j]) {
+      const c = cells[j];
+      const yo = j * dim, mo = c * dim, so = c * dd;
+      for (let a = 0; a < dim; a++) {
+        const ya = y[yo + a] - mean[mo + a];
+        for (let b = 0; b < dim; b++) scatter[so + a * dim + b] += ya * (y[yo + b] - mean[mo + b]);
+      }
+    }
+}
+
+/** One member's kept flags and distances (robustWeights, module comment step 5), written into rowKept / rowDist. */
+function weighMember(
+  y: Float64Array,
+  cells: Int32Array,
+  kept: Uint8Array,
+  n: Int32Array,
+  mean: Float64Array,
+  scatter: Float64Array,
+  pooledFlat: Float64Array,
+  priorStrength: number,
+  dim: number,
+  cutoffs: Float64Array,
+  cutoff: (n: number) => number,
+  scratch: Float64Array,
+  rowKept: Uint8Array,
+  rowDist: Float64Array,
+): void {
+  const dd = dim * dim;
+  const cov = scratch.subarray(0, dd);
+  const r = scratch.subarray(dd, dd + dim);
+  const m1 = scratch.subarray(dd + dim, dd + 2 * dim);
+  const z = scratch.subarray(dd + 2 * dim, dd + 3 * dim);
+  for (let j = 0; j < cells.length; j++) {
+    const c = cells[j];
+    const yo = j * dim, mo = c * dim, so = c * dd;
+    let n1 = n[c];
+    for (let a = 0; a < dim; a++) {
+      r[a] = y[yo + a] - mean[mo + a];
+      m1[a] = mean[mo + a];
+    }
+    const self = kept[j] === 1;
+    if (self) {
+      n1 = n[c] - 1;
+      // m' = (n m - y) / (n - 1); W' = W - n/(n-1) (y - m)(y - m)^T.
+      if (n1 >= 1) for (let a = 0; a < dim; a++) m1[a] = mean[mo + a] - r[a] / n1;
+    }
+    if (n1 < 2) {
+      rowKept[j] = 1;
+      rowDist[j] = Number.NaN;
+      continue;
+    }
+    const f = self ? n[c] / n1 : 0;
+    const denom = priorStrength + n1 - 1;
+    const infl = 1 + 1 / n1;
+    for (let a = 0; a < dim; a++)
+      for (let b = 0; b <= a; b++) cov[a * dim + b] = (infl * (priorStrength * pooledFlat[a * dim + b] + scatter[so + a * dim + b] - f * r[a] * r[b])) / denom;
+    for (let a = 0; a < dim; a++) r[a] = y[yo + a] - m1[a];
+    const d2 = choleskyQuadraticForm(cov, r, dim, z);
+    let limit = cutoffs[n1];
+    if (Number.isNaN(limit)) limit = cutoffs[n1] = cutoff(n1);
+    rowKept[j] = d2 <= limit ? 1 : 0;
+    rowDist[j] = Math.sqrt(d2);
+  }
 }
 
 /**
