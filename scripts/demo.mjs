@@ -20,10 +20,11 @@ const unlabelled = list('unlabelled');
 rmSync(out, { recursive: true, force: true });
 mkdirSync(out, { recursive: true });
 
-const quiet = { stdout: () => {}, stderr: (t) => process.stderr.write(t) };
+let stderrBuffer = '';
+const quiet = { stdout: () => {}, stderr: (t) => (stderrBuffer += t) };
 const captured = () => {
   const lines = [];
-  return { io: { stdout: (t) => lines.push(t), stderr: (t) => process.stderr.write(t) }, text: () => lines.join('') };
+  return { io: { stdout: (t) => lines.push(t), stderr: (t) => (stderrBuffer += t) }, text: () => lines.join('') };
 };
 
 async function step(title, args, io = quiet) {
@@ -31,9 +32,11 @@ async function step(title, args, io = quiet) {
   const code = await main(['node', 'cairn', ...args], io);
   const seconds = (performance.now() - t0) / 1000;
   if (code !== 0) {
+    process.stderr.write(stderrBuffer);
     process.stderr.write(`demo: "${title}" failed (exit ${code}): cairn ${args.join(' ')}\n`);
     process.exit(code);
   }
+  stderrBuffer = '';
   process.stdout.write(`  ${title.padEnd(48)} ${seconds.toFixed(1)} s\n`);
 }
 
@@ -45,7 +48,7 @@ await step('inspect it (table, figures, HTML)', ['inspect', template, '--csv', '
   ...quiet,
 });
 await step(`propose labels for ${unlabelled.length} unlabelled animals`, [
-  'match', template, ...unlabelled, '-o', join(out, 'proposals'), '--seed', '1',
+  'match', template, ...unlabelled, '-o', join(out, 'proposals'), '--seed', '1', '--html', join(out, 'proposals.html'),
 ]);
 const evaluation = captured();
 await step('cross-validate on the labelled animals', [

@@ -32,11 +32,11 @@ describe('npm run demo (the README quick start), end to end on a temporary copy'
     expect(run.stdout).toMatch(/accuracy\s+\d+\.\d%/);
   });
 
-  it('writes a template that parses and the three HTML reports', () => {
+  it('writes a template that parses and the three HTML reports (inspect, match, evaluate)', () => {
     const template = parseTemplate(readFileSync(join(work, 'out', 'template.json'), 'utf8'), 'template.json');
     expect(template.cells.length).toBe(150);
     expect(template.members.length).toBe(12);
-    for (const page of ['template.html', 'evaluation.html']) {
+    for (const page of ['template.html', 'proposals.html', 'evaluation.html']) {
       const html = readFileSync(join(work, 'out', page), 'utf8');
       expect(html).toMatch(/^<!DOCTYPE html>/i);
       expect(html).toContain('<svg');
