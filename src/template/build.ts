@@ -4,7 +4,6 @@
  * observations, shrunk covariances (cell-statistics.ts) and the flagged labels
  * (hand-labels.ts).
  */
-import { applyTransform } from '../geometry/index.js';
 import type { FlaggedLabel, Sample, Template, TemplateCell, TemplateMember, TemplateSettings } from '../types.js';
 import { TEMPLATE_FORMAT, TEMPLATE_VERSION } from '../types.js';
 import { VERSION } from '../version.js';
@@ -67,8 +66,10 @@ export function registerAndSummarise(entries: readonly LabelledEntry[], settings
   const reg = coRegister(entries, settings);
   const dim = reg.dim;
   const sums: CellSums[] = reg.cells.map(() => emptySums(dim));
-  // Recompute the aligned positions from the stored transforms so the statistics are exactly reproducible from the file.
-  const aligned = reg.entries.map((e, i) => applyTransform(reg.transforms[i], e.coords));
+  // The aligned positions are applyTransform(transforms[i], coords) computed with the final
+  // transforms (co-register.ts, same sums in the same order), so the statistics are exactly
+  // reproducible from the stored transforms.
+  const aligned = reg.aligned;
   reg.entries.forEach((e, i) => {
     for (let j = 0; j < e.labels.length; j++) if (reg.kept[i][j]) addObservationInPlace(sums[reg.cellOf[i][j]], aligned[i][j]);
   });
