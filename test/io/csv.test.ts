@@ -1,17 +1,7 @@
 import { describe, it, expect } from 'vitest';
 import * as fc from 'fast-check';
-import { InputError, UsageError } from '../../src/errors.js';
 import { formatCsv, formatCsvField, formatNumber, parseCsvRecords } from '../../src/io/csv.js';
-
-function messageOf(f: () => unknown): string {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof InputError || e instanceof UsageError) return e.message;
-    throw e;
-  }
-  throw new Error('expected an error');
-}
+import { messageOf } from '../support/errors.js';
 
 describe('parseCsvRecords', () => {
   it('splits records and fields and numbers each record by the line it starts on (RFC 4180 section 2)', () => {

@@ -1,19 +1,10 @@
 import { describe, it, expect } from 'vitest';
 import * as fc from 'fast-check';
-import { InputError, isCairnError, UsageError } from '../../src/errors.js';
+import { InputError, isCairnError } from '../../src/errors.js';
 import { formatCsv } from '../../src/io/csv.js';
 import { parseSamplesCsv, parseSamplesCsvCollect, sampleIdFromPath } from '../../src/io/sample-csv.js';
 import type { Sample } from '../../src/types.js';
-
-function messageOf(f: () => unknown): string {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof InputError || e instanceof UsageError) return e.message;
-    throw e;
-  }
-  throw new Error('expected an error');
-}
+import { messageOf } from '../support/errors.js';
 
 describe('parseSamplesCsv: one file per sample', () => {
   it('reads x, y, z, label and feature columns; the id is the file name without extension; rows are file lines', () => {

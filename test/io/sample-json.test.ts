@@ -1,18 +1,9 @@
 import { describe, it, expect } from 'vitest';
 import * as fc from 'fast-check';
-import { InputError, isCairnError } from '../../src/errors.js';
+import { isCairnError } from '../../src/errors.js';
 import { parseSamplesJson } from '../../src/io/sample-json.js';
 import { parseSamplesCsv } from '../../src/io/sample-csv.js';
-
-function messageOf(f: () => unknown): string {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof InputError) return e.message;
-    throw e;
-  }
-  throw new Error('expected an InputError');
-}
+import { messageOf } from '../support/errors.js';
 
 describe('parseSamplesJson', () => {
   it('reads a list of samples; rows are 1-based point indices', () => {

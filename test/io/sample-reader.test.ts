@@ -3,8 +3,9 @@ import * as fc from 'fast-check';
 import * as fs from 'node:fs';
 import * as os from 'node:os';
 import * as path from 'node:path';
-import { InputError, isCairnError, UsageError } from '../../src/errors.js';
+import { isCairnError, UsageError } from '../../src/errors.js';
 import { parseVoxelSize, readSamples, readSamplesCollect } from '../../src/io/sample-reader.js';
+import { messageOf } from '../support/errors.js';
 
 let dir: string;
 const at = (name: string) => path.join(dir, name);
@@ -24,16 +25,6 @@ beforeAll(() => {
 afterAll(() => {
   fs.rmSync(dir, { recursive: true, force: true });
 });
-
-function messageOf(f: () => unknown): string {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof InputError || e instanceof UsageError) return e.message;
-    throw e;
-  }
-  throw new Error('expected an error');
-}
 
 describe('readSamples', () => {
   it('chooses the parser by extension and keeps file order', () => {

@@ -8,6 +8,7 @@ import { InputError, isCairnError, UsageError } from '../../src/errors.js';
 import { parseTemplate, readTemplate, serializeTemplate } from '../../src/io/template-file.js';
 import type { Template } from '../../src/types.js';
 import { exampleTemplate2d, exampleTemplate3d } from './template-example.js';
+import { messageOf } from '../support/errors.js';
 
 const schema = JSON.parse(fs.readFileSync(new URL('../../docs/template.schema.json', import.meta.url), 'utf8'));
 const ajv = new Ajv2020({ allErrors: true, strict: true, formats: { 'date-time': true } });
@@ -16,16 +17,6 @@ const validateSchema = ajv.compile(schema);
 /** Deep copy of a template as a plain JSON object, for mutation. */
 function asJson(t: Template): Record<string, unknown> {
   return JSON.parse(serializeTemplate(t));
-}
-
-function messageOf(f: () => unknown): string {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof InputError) return e.message;
-    throw e;
-  }
-  throw new Error('expected an InputError');
 }
 
 describe('serializeTemplate', () => {

@@ -3,18 +3,8 @@ import * as fc from 'fast-check';
 import * as fs from 'node:fs';
 import * as os from 'node:os';
 import * as path from 'node:path';
-import { InputError } from '../../src/errors.js';
 import { decodeUtf8, firstInvalidUtf8Offset, readTextFile } from '../../src/io/text-file.js';
-
-function messageOf(f: () => unknown): string {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof InputError) return e.message;
-    throw e;
-  }
-  throw new Error('expected an InputError');
-}
+import { messageOf } from '../support/errors.js';
 
 describe('decodeUtf8', () => {
   it('decodes UTF-8 and drops a leading byte order mark', () => {

@@ -4,8 +4,8 @@ import * as os from 'node:os';
 import * as path from 'node:path';
 import { spawn } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
-import { InputError } from '../../src/errors.js';
 import { assertWritable, canonicalPath, ensureOutputDir, writeFileAtomic } from '../../src/io/write.js';
+import { messageOf } from '../support/errors.js';
 
 /** Lets a test make fs.renameSync fail, to check the clean-up path. */
 const failRename = vi.hoisted(() => ({ on: false, from: '' }));
@@ -31,16 +31,6 @@ beforeEach(() => {
 afterEach(() => {
   fs.rmSync(dir, { recursive: true, force: true });
 });
-
-function messageOf(f: () => unknown): string {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof InputError) return e.message;
-    throw e;
-  }
-  throw new Error('expected an InputError');
-}
 
 /** Files in the test folder, temporary files included. */
 const listing = () => fs.readdirSync(dir).sort();
