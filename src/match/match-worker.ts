@@ -1,5 +1,5 @@
 /**
- * Worker-thread entry for `matchSamplesParallel` and `matchSampleStream`: receives the template once
+ * Worker-thread entry for `matchSampleStream`: receives the template once
  * (workerData), then sample jobs { index, sample, seed, options } and answers
  * { index, result, seconds } or { index, error }. No file access, no printing.
  */
