@@ -8,10 +8,9 @@
  * Also exports `handLabelCheckSection`, the hand-label part of `cairn check`.
  */
 import { Option, type Command } from 'commander';
-import { parseVoxelSize, readSamples } from '../io/sample-reader.js';
+import { readSamples } from '../io/sample-reader.js';
 import { serializeTemplate } from '../io/template-file.js';
 import { writeFileAtomic } from '../io/write.js';
-import { UsageError } from '../errors.js';
 import { buildTemplate, checkHandLabels } from '../template/index.js';
 import type { BuildOptions, IterationDiagnostics, SkippedSample } from '../template/index.js';
 import type { FlaggedLabel, Sample, Template } from '../types.js';

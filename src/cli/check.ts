@@ -10,8 +10,8 @@
  * `CheckSection` to `report.sections`; both renderers print sections generically.
  */
 import type { Command } from 'commander';
-import { UsageError, type InputError } from '../errors.js';
-import { parseVoxelSize, readSamplesCollect, type SampleReadResult } from '../io/sample-reader.js';
+import type { InputError } from '../errors.js';
+import { readSamplesCollect, type SampleReadResult } from '../io/sample-reader.js';
 import type { Sample } from '../types.js';
 import { handLabelCheckSection } from './build.js';
 import { voxelSizeOption } from './options.js';
