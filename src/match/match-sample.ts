@@ -31,7 +31,7 @@ import { assignWithAbstention } from './assignment.js';
 import { alignCpd } from './cpd.js';
 import { alignIcp } from './icp.js';
 import { buildCellGrid, type CellGrid } from './cell-grid.js';
-import { buildCellModel, type CellModel } from './cell-model.js';
+import { buildCellModel, cellMahalanobisSquared, type CellModel } from './cell-model.js';
 import { buildDensityGrid, boundingVolume, determinantFlat, MixtureScorer, type DensityGrid } from './density-grid.js';
 import { learnCellDescriptors, rankCandidates, rankNormalize, rawDescriptors, type CellDescriptors } from './descriptors.js';
 import { exhaustiveHypotheses, isTinyProblem } from './exhaustive.js';
@@ -190,17 +190,8 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const radius = options.hitRadius ?? DEFAULT_HIT_RADIUS;
 
   // Given labels -> fixed pairs (first occurrence of a label wins; the reader rejects duplicates anyway).
-  const fixed: Pair[] = [];
-  const fixedCell = new Map<number, number>();
-  const usedCells = new Set<number>();
-  sample.labels.forEach((label, i) => {
-    if (label === null) return;
-    const k = model.labelIndex.get(label);
-    if (k === undefined || usedCells.has(k)) return;
-    usedCells.add(k);
-    fixed.push({ point: i, cell: k });
-    fixedCell.set(i, k);
-  });
+  const fixedCell = givenLabelCells(model, sample.labels);
+  const fixed: Pair[] = [...fixedCell].map(([point, cell]) => ({ point, cell }));
 
   const outlierDensity = 1 / boundingVolume(points);
   const searchShare = 0.25;
@@ -493,7 +484,7 @@ function fixedGain(model: CellModel, points: Points, t: Transform, params: Match
   let s = 0;
   const mapped = mapPoints(t, fixed.map((f) => points[f.point]));
   fixed.forEach((f, i) => {
-    s += base - 0.5 * model.logDets[f.cell] - (0.5 * mahalanobis2(model, f.cell, mapped[i])) / infl;
+    s += base - 0.5 * model.logDets[f.cell] - (0.5 * cellMahalanobisSquared(model, f.cell, mapped[i])) / infl;
   });
   return s;
 }
@@ -731,7 +722,7 @@ function assignAndScore(
       proposals[i] = {
         label,
         confidence: 1,
-        distance: k === undefined ? null : Math.sqrt(mahalanobis2(model, k, mapped[i])),
+        distance: k === undefined ? null : Math.sqrt(cellMahalanobisSquared(model, k, mapped[i])),
         alternatives: [{ label, probability: 1 }],
       };
     }
@@ -749,7 +740,7 @@ function assignAndScore(
       if (prob >= abstainBelow) {
         label = model.labels[k];
         confidence = prob;
-        distance = Math.sqrt(mahalanobis2(model, k, mapped[i]));
+        distance = Math.sqrt(cellMahalanobisSquared(model, k, mapped[i]));
       }
     }
     proposals[i] = { label, confidence, distance, alternatives: top };
@@ -774,17 +765,6 @@ function restrictGains(g: PairGains, rows: readonly number[], colIndex: Int32Arr
   return { rowStart, cells: Int32Array.from(cells), gains: Float64Array.from(gains), distances: Float64Array.from(dists) };
 }
 
-function mahalanobis2(model: CellModel, k: number, y: readonly number[]): number {
-  const d = model.dim, po = k * d * d, mo = k * d;
-  let s = 0;
-  for (let a = 0; a < d; a++) {
-    let r = 0;
-    for (let b = 0; b < d; b++) r += model.precisions[po + a * d + b] * (y[b] - model.means[mo + b]);
-    s += (y[a] - model.means[mo + a]) * r;
-  }
-  return s;
-}
-
 /**
  * Labels for points already mapped into the template frame (for example by a
  * known deformation: the accuracy suite's oracle). rho and Lambda are
@@ -801,15 +781,7 @@ export function labelMappedPoints(
   const prepared = prepareTemplate(template);
   const { model } = prepared;
   const n = mapped.length;
-  const fixedCell = new Map<number, number>();
-  const used = new Set<number>();
-  sample.labels.forEach((label, i) => {
-    if (label === null) return;
-    const k = model.labelIndex.get(label);
-    if (k === undefined || used.has(k)) return;
-    used.add(k);
-    fixedCell.set(i, k);
-  });
+  const fixedCell = givenLabelCells(model, sample.labels);
   let params: MatchModelParameters = {
     detection: 0.85,
     outliers: Math.max(1, n - 0.85 * model.size),
@@ -824,4 +796,22 @@ export function labelMappedPoints(
   }
   const gains = pairGains(model, prepared.pairGrid, mapped, jacobian, params);
   return assignAndScore(model, gains, mapped, fixedCell, sample.labels, options.hitRadius ?? DEFAULT_HIT_RADIUS, options.abstainBelow ?? 0);
+}
+
+/**
+ * Labels already in the sample as fixed point -> cell pairs, in point order.
+ * Labels the template does not know are ignored; the first point carrying a
+ * label wins (the readers reject repeated labels anyway).
+ */
+function givenLabelCells(model: CellModel, labels: readonly (string | null)[]): Map<number, number> {
+  const fixedCell = new Map<number, number>();
+  const used = new Set<number>();
+  labels.forEach((label, i) => {
+    if (label === null) return;
+    const k = model.labelIndex.get(label);
+    if (k === undefined || used.has(k)) return;
+    used.add(k);
+    fixedCell.set(i, k);
+  });
+  return fixedCell;
 }

@@ -30,7 +30,7 @@ import type { Points, Transform } from '../types.js';
 import { isPlausible, toFlat, type Plausibility } from './affine-flat.js';
 import type { CellGrid } from './cell-grid.js';
 import { voxelOf } from './cell-grid.js';
-import type { CellModel } from './cell-model.js';
+import { cellMahalanobisSquared, type CellModel } from './cell-model.js';
 import { determinantFlat } from './density-grid.js';
 
 export interface MixtureContext {
@@ -68,7 +68,7 @@ export function expectation(ctx: MixtureContext, mapped: Points, jacobian: numbe
     if (v >= 0) {
       for (let c = grid.offsets[v]; c < grid.offsets[v + 1]; c++) {
         const k = grid.cells[c];
-        const e2 = mahalanobis2(model, k, y);
+        const e2 = cellMahalanobisSquared(model, k, y);
         if (e2 > 12.25) continue;
         const w = norms[k] * Math.exp(-0.5 * e2);
         f += w;
@@ -98,17 +98,6 @@ function normalisers(model: CellModel): Float64Array {
     normCache.set(model, n);
   }
   return n;
-}
-
-function mahalanobis2(model: CellModel, k: number, y: readonly number[]): number {
-  const d = model.dim, po = k * d * d, mo = k * d;
-  let s = 0;
-  for (let a = 0; a < d; a++) {
-    let r = 0;
-    for (let b = 0; b < d; b++) r += model.precisions[po + a * d + b] * (y[b] - model.means[mo + b]);
-    s += (y[a] - model.means[mo + a]) * r;
-  }
-  return s;
 }
 
 function mapPoints(t: Transform, points: Points): number[][] {
