@@ -1,27 +1,11 @@
 import { describe, it, expect } from 'vitest';
 import { alignCpd } from '../../src/match/cpd.js';
 import { FitError, UsageError } from '../../src/errors.js';
-import { createRng, randomNormal, randomRotation, shuffle, type Rng } from '../../src/random.js';
-import { applyToPoint, determinant, multiply, transpose } from '../../src/geometry/index.js';
+import { createRng, randomRotation, shuffle, type Rng } from '../../src/random.js';
+import { determinant, multiply, transpose } from '../../src/geometry/index.js';
 import type { Transform } from '../../src/types.js';
 import { generateLayout } from '../support/animals.js';
-
-/** Rotation by `angle` radians about the unit vector `axis` (Rodrigues' formula). */
-function axisRotation(axis: number[], angle: number): number[][] {
-  const n = Math.hypot(...axis);
-  const [x, y, z] = axis.map((v) => v / n);
-  const c = Math.cos(angle), s = Math.sin(angle), C = 1 - c;
-  return [
-    [c + x * x * C, x * y * C - z * s, x * z * C + y * s],
-    [y * x * C + z * s, c + y * y * C, y * z * C - x * s],
-    [z * x * C - y * s, z * y * C + x * s, c + z * z * C],
-  ];
-}
-
-/** The template points moved by `truth` (template -> sample), shuffled, with isotropic Gaussian noise of sd `noise`. */
-function makeSample(template: number[][], truth: Transform, rng: Rng, noise = 0): number[][] {
-  return shuffle(template, rng).map((p) => applyToPoint(truth, p).map((v) => v + noise * randomNormal(rng)));
-}
+import { axisRotation, makeSample, transformError } from './registration-support.js';
 
 /** Uniform points in the bounding box of `points`, enlarged by `margin` um on every side. */
 function uniformOutliers(points: number[][], count: number, rng: Rng, margin: number): number[][] {
@@ -29,16 +13,6 @@ function uniformOutliers(points: number[][], count: number, rng: Rng, margin: nu
   const lo = Array.from({ length: d }, (_, j) => Math.min(...points.map((p) => p[j])) - margin);
   const hi = Array.from({ length: d }, (_, j) => Math.max(...points.map((p) => p[j])) + margin);
   return Array.from({ length: count }, () => lo.map((l, j) => l + (hi[j] - l) * rng()));
-}
-
-/** RMS over template points p of |estimate(truth(p)) - p|: zero when estimate is exactly truth^-1. */
-function transformError(estimate: Transform, truth: Transform, template: number[][]): number {
-  let s = 0;
-  for (const p of template) {
-    const q = applyToPoint(estimate, applyToPoint(truth, p));
-    s += q.reduce((acc, v, j) => acc + (v - p[j]) ** 2, 0);
-  }
-  return Math.sqrt(s / template.length);
 }
 
 const layout = generateLayout(createRng(501), { cells: 190 });
