@@ -171,21 +171,36 @@ export function symmetricEigen(a: Matrix): { values: number[]; vectors: number[]
  */
 export function inverse(a: Matrix): number[][] {
   const d = a.length;
-  const m = a.map((row, i) => [...row, ...identity(d)[i]]);
+  // Augmented [A | I], one row array per row.
+  const m: number[][] = [];
+  for (let i = 0; i < d; i++) {
+    const row = new Array<number>(2 * d);
+    for (let j = 0; j < d; j++) {
+      row[j] = a[i][j];
+      row[d + j] = i === j ? 1 : 0;
+    }
+    m.push(row);
+  }
   for (let c = 0; c < d; c++) {
     let p = c;
     for (let r = c + 1; r < d; r++) if (Math.abs(m[r][c]) > Math.abs(m[p][c])) p = r;
     if (m[p][c] === 0 || !Number.isFinite(m[p][c])) throw new FitError('inverse: matrix is singular');
-    [m[c], m[p]] = [m[p], m[c]];
-    const piv = m[c][c];
-    for (let j = 0; j < 2 * d; j++) m[c][j] /= piv;
+    const swap = m[c];
+    m[c] = m[p];
+    m[p] = swap;
+    const pivotRow = m[c];
+    const piv = pivotRow[c];
+    for (let j = 0; j < 2 * d; j++) pivotRow[j] /= piv;
     for (let r = 0; r < d; r++) {
       if (r === c) continue;
-      const f = m[r][c];
-      if (f !== 0) for (let j = 0; j < 2 * d; j++) m[r][j] -= f * m[c][j];
+      const row = m[r];
+      const f = row[c];
+      if (f !== 0) for (let j = 0; j < 2 * d; j++) row[j] -= f * pivotRow[j];
     }
   }
-  return m.map((row) => row.slice(d));
+  const out: number[][] = [];
+  for (let i = 0; i < d; i++) out.push(m[i].slice(d));
+  return out;
 }
 
 /** Squared Euclidean distance |a - b|^2 of two points of the same length. */

@@ -17,49 +17,85 @@ import type { Matrix } from '../types.js';
 const EPS = 1e-14;
 const MAX_SWEEPS = 30;
 
+// Working storage for d <= 3 (row-major, stride d), reused across calls: the
+// decompositions run thousands of times per fit-heavy job.
+const WORK_M = new Float64Array(9);
+const WORK_V = new Float64Array(9);
+const WORK_D = new Float64Array(3);
+const WORK_ORDER = new Int32Array(3);
+
+/**
+ * Indices 0..d-1 into `order`, sorted by decreasing `key` and stably (equal keys keep
+ * index order): the order Array.prototype.sort gives with comparator (i, j) => key[j] - key[i].
+ */
+function orderDescending(key: Float64Array, d: number, order: Int32Array): void {
+  for (let i = 0; i < d; i++) {
+    let k = i;
+    while (k > 0 && key[order[k - 1]] < key[i]) {
+      order[k] = order[k - 1];
+      k--;
+    }
+    order[k] = i;
+  }
+}
+
 /** Eigen-decomposition of a symmetric d x d matrix (d <= 3 intended): values descending, vectors as columns. */
 export function symmetricEigenSmall(a: Matrix): { values: number[]; vectors: number[][] } {
   const d = a.length;
-  const m = a.map((row, i) => row.map((v, j) => 0.5 * (v + a[j][i])));
-  const v: number[][] = [];
-  for (let i = 0; i < d; i++) {
-    v.push(new Array<number>(d).fill(0));
-    v[i][i] = 1;
-  }
+  const small = d <= 3;
+  // m = (A + A^T) / 2 and v = I, row-major with stride d.
+  const m = small ? WORK_M : new Float64Array(d * d);
+  const v = small ? WORK_V : new Float64Array(d * d);
+  for (let i = 0; i < d; i++)
+    for (let j = 0; j < d; j++) {
+      m[i * d + j] = 0.5 * (a[i][j] + a[j][i]);
+      v[i * d + j] = i === j ? 1 : 0;
+    }
   for (let sweep = 0; sweep < MAX_SWEEPS; sweep++) {
     let off = 0, diag = 0;
     for (let p = 0; p < d; p++) {
-      diag += m[p][p] * m[p][p];
-      for (let q = p + 1; q < d; q++) off += m[p][q] * m[p][q];
+      diag += m[p * d + p] * m[p * d + p];
+      for (let q = p + 1; q < d; q++) off += m[p * d + q] * m[p * d + q];
     }
     if (off <= EPS * EPS * diag || off === 0) break;
     for (let p = 0; p < d - 1; p++)
       for (let q = p + 1; q < d; q++) {
-        const apq = m[p][q];
+        const apq = m[p * d + q];
         if (apq === 0) continue;
         // Rotation angle that zeroes m[p][q]: theta = (a_qq - a_pp) / (2 a_pq), t = sgn(theta) / (|theta| + sqrt(theta^2 + 1)).
-        const theta = (m[q][q] - m[p][p]) / (2 * apq);
+        const theta = (m[q * d + q] - m[p * d + p]) / (2 * apq);
         const t = (theta >= 0 ? 1 : -1) / (Math.abs(theta) + Math.sqrt(theta * theta + 1));
         const c = 1 / Math.sqrt(t * t + 1), s = t * c;
         for (let k = 0; k < d; k++) {
-          const mkp = m[k][p], mkq = m[k][q];
-          m[k][p] = c * mkp - s * mkq;
-          m[k][q] = s * mkp + c * mkq;
+          const mkp = m[k * d + p], mkq = m[k * d + q];
+          m[k * d + p] = c * mkp - s * mkq;
+          m[k * d + q] = s * mkp + c * mkq;
         }
         for (let k = 0; k < d; k++) {
-          const mpk = m[p][k], mqk = m[q][k];
-          m[p][k] = c * mpk - s * mqk;
-          m[q][k] = s * mpk + c * mqk;
+          const mpk = m[p * d + k], mqk = m[q * d + k];
+          m[p * d + k] = c * mpk - s * mqk;
+          m[q * d + k] = s * mpk + c * mqk;
         }
         for (let k = 0; k < d; k++) {
-          const vkp = v[k][p], vkq = v[k][q];
-          v[k][p] = c * vkp - s * vkq;
-          v[k][q] = s * vkp + c * vkq;
+          const vkp = v[k * d + p], vkq = v[k * d + q];
+          v[k * d + p] = c * vkp - s * vkq;
+          v[k * d + q] = s * vkp + c * vkq;
         }
       }
   }
-  const order = Array.from({ length: d }, (_, i) => i).sort((i, j) => m[j][j] - m[i][i]);
-  return { values: order.map((i) => m[i][i]), vectors: v.map((row) => order.map((i) => row[i])) };
+  const diagonal = small ? WORK_D : new Float64Array(d);
+  const order = small ? WORK_ORDER : new Int32Array(d);
+  for (let i = 0; i < d; i++) diagonal[i] = m[i * d + i];
+  orderDescending(diagonal, d, order);
+  const values = new Array<number>(d);
+  const vectors: number[][] = [];
+  for (let c = 0; c < d; c++) values[c] = diagonal[order[c]];
+  for (let k = 0; k < d; k++) {
+    const row = new Array<number>(d);
+    for (let c = 0; c < d; c++) row[c] = v[k * d + order[c]];
+    vectors.push(row);
+  }
+  return { values, vectors };
 }
 
 /**
@@ -70,21 +106,25 @@ export function symmetricEigenSmall(a: Matrix): { values: number[]; vectors: num
  */
 export function svdSmall(a: Matrix): { u: number[][]; s: number[]; v: number[][] } {
   const d = a.length;
-  const w = a.map((row) => row.slice());
-  const v: number[][] = [];
-  for (let i = 0; i < d; i++) {
-    v.push(new Array<number>(d).fill(0));
-    v[i][i] = 1;
-  }
+  const small = d <= 3;
+  // w = A and v = I, row-major with stride d.
+  const w = small ? WORK_M : new Float64Array(d * d);
+  const v = small ? WORK_V : new Float64Array(d * d);
+  for (let i = 0; i < d; i++)
+    for (let j = 0; j < d; j++) {
+      w[i * d + j] = a[i][j];
+      v[i * d + j] = i === j ? 1 : 0;
+    }
   for (let sweep = 0; sweep < MAX_SWEEPS; sweep++) {
     let rotated = false;
     for (let p = 0; p < d - 1; p++)
       for (let q = p + 1; q < d; q++) {
         let alpha = 0, beta = 0, gamma = 0;
         for (let k = 0; k < d; k++) {
-          alpha += w[k][p] * w[k][p];
-          beta += w[k][q] * w[k][q];
-          gamma += w[k][p] * w[k][q];
+          const wp = w[k * d + p], wq = w[k * d + q];
+          alpha += wp * wp;
+          beta += wq * wq;
+          gamma += wp * wq;
         }
         if (gamma === 0 || Math.abs(gamma) <= EPS * Math.sqrt(alpha * beta)) continue;
         rotated = true;
@@ -92,31 +132,40 @@ export function svdSmall(a: Matrix): { u: number[][]; s: number[]; v: number[][]
         const t = (zeta >= 0 ? 1 : -1) / (Math.abs(zeta) + Math.sqrt(1 + zeta * zeta));
         const c = 1 / Math.sqrt(1 + t * t), s = c * t;
         for (let k = 0; k < d; k++) {
-          const wp = w[k][p], wq = w[k][q];
-          w[k][p] = c * wp - s * wq;
-          w[k][q] = s * wp + c * wq;
-          const vp = v[k][p], vq = v[k][q];
-          v[k][p] = c * vp - s * vq;
-          v[k][q] = s * vp + c * vq;
+          const wp = w[k * d + p], wq = w[k * d + q];
+          w[k * d + p] = c * wp - s * wq;
+          w[k * d + q] = s * wp + c * wq;
+          const vp = v[k * d + p], vq = v[k * d + q];
+          v[k * d + p] = c * vp - s * vq;
+          v[k * d + q] = s * vp + c * vq;
         }
       }
     if (!rotated) break;
   }
-  const norms = Array.from({ length: d }, (_, j) => {
+  const norms = small ? WORK_D : new Float64Array(d);
+  const order = small ? WORK_ORDER : new Int32Array(d);
+  for (let j = 0; j < d; j++) {
     let n = 0;
-    for (let k = 0; k < d; k++) n += w[k][j] * w[k][j];
-    return Math.sqrt(n);
-  });
-  const order = Array.from({ length: d }, (_, i) => i).sort((i, j) => norms[j] - norms[i]);
-  const s = order.map((j) => norms[j]);
-  const vs = v.map((row) => order.map((j) => row[j]));
-  const u: number[][] = Array.from({ length: d }, () => new Array<number>(d).fill(0));
+    for (let k = 0; k < d; k++) n += w[k * d + j] * w[k * d + j];
+    norms[j] = Math.sqrt(n);
+  }
+  orderDescending(norms, d, order);
+  const s = new Array<number>(d);
+  for (let c = 0; c < d; c++) s[c] = norms[order[c]];
+  const vs: number[][] = [];
+  const u: number[][] = [];
+  for (let k = 0; k < d; k++) {
+    const vrow = new Array<number>(d);
+    for (let c = 0; c < d; c++) vrow[c] = v[k * d + order[c]];
+    vs.push(vrow);
+    u.push(new Array<number>(d).fill(0));
+  }
   const tiny = (s[0] || 1) * 1e-13;
   let good = 0;
   for (let c = 0; c < d; c++) {
     const j = order[c];
     if (s[c] > tiny) {
-      for (let k = 0; k < d; k++) u[k][c] = w[k][j] / s[c];
+      for (let k = 0; k < d; k++) u[k][c] = w[k * d + j] / s[c];
       good++;
     }
   }

@@ -308,6 +308,32 @@ describe('degenerate input is a FitError that says why', () => {
     );
   });
 
+  it('reports the first problem in a fixed order: point shapes and coordinates (all points) before the weights, weights before their count', () => {
+    const target = square3.map((p) => p.slice());
+    target[4][0] = NaN;
+    // A bad weight at point 0 and a bad coordinate at point 4: the coordinate is reported.
+    expect(() => fitSimilarity(square3, target, { weights: [-1, 1, 1, 1, 1] })).toThrow(
+      new FitError('fitSimilarity: point 4 has a non-finite coordinate'),
+    );
+    // Too few weights and a point of the wrong dimension: the dimension is reported.
+    const short = square3.map((p, i) => (i === 3 ? p.slice(0, 2) : p));
+    expect(() => fitRigid(short, square3, { weights: [1, 1] })).toThrow(new FitError('fitRigid: shapes differ at point 3 (2 vs 3, expected 3)'));
+    // A negative weight after enough zero weights: the negative weight is reported, not the count.
+    expect(() => fitAffine(square3, square3, { weights: [0, 0, 0, 0, -2] })).toThrow(
+      new FitError('fitAffine: weights must be finite and non-negative, got -2'),
+    );
+    // The same checks in 2-D and 1-D.
+    expect(() => fitSimilarity([[0, 0], [1, 0], [0, Infinity]], [[0, 0], [1, 0], [0, 1]])).toThrow(
+      new FitError('fitSimilarity: point 2 has a non-finite coordinate'),
+    );
+    expect(() => fitSimilarity([[0], [1], [2]], [[0], [2], [4]], { weights: [1, Infinity, 1] })).toThrow(
+      new FitError('fitSimilarity: weights must be finite and non-negative, got Infinity'),
+    );
+    expect(() => fitSimilarity([[0, 0, 0, 0], [1, 1, 1, 1]], [[0, 0, 0, 0], [1, 1, 1, 1]])).toThrow(
+      new FitError('fitSimilarity: dimension must be 1, 2 or 3, got 4'),
+    );
+  });
+
   it('weights that are all zero, negative, or leave too few points', () => {
     expect(() => fitSimilarity(square3, square3, { weights: [0, 0, 0, 0, 0] })).toThrow(
       new FitError('fitSimilarity needs at least 3 points with positive weight, got 0'),
