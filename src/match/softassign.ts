@@ -263,73 +263,219 @@ export function greedyMatchingGain(pairs: PairGains, points: number, cells: numb
  * (each point and each cell at most once). A fast approximation of the
  * optimal assignment, within a factor 1/2 of its total (the greedy bound for
  * weighted bipartite matching; Avis 1983).
+ *
+ * Order: pairs are taken by descending g_ik, equal gains by ascending pair
+ * index (the index into `pairs.gains`); a pair is kept when its point and its
+ * cell are both still free. The total is summed in that order.
+ *
+ * Method (same result as sorting every positive pair, found with less work):
+ * the positive pairs are split by a stable counting sort into GREEDY_BANDS
+ * bands of equal width in gain, band(g) = min(B - 1, floor((g_max - g) B / g_max))
+ * with g_max the largest finite gain (+Infinity falls in band 0). The band
+ * index never increases with g, so going band by band respects the order.
+ * At the start of a band, its pairs whose point or cell is already matched
+ * are dropped (the greedy would skip them: matched ends stay matched); only
+ * the rest are sorted exactly (insertion sort for a few, else an LSD radix
+ * sort on the IEEE-754 bit patterns, which order positive doubles like their
+ * values) and taken in order. On 190-point tables most pairs are dropped
+ * before any sorting.
+ *
+ * Shapes: `pairs.rowStart` has points + 1 entries with rowStart[points] =
+ * pairs.gains.length; cells in [0, cells). Returns cellOfPoint (length
+ * points, -1 = unmatched) and the total gain. Throws nothing.
  */
 export function greedyMatching(pairs: PairGains, points: number, cells: number): HardMatching {
-  // Pairs with positive gain in order of descending gain (ties: lower pair index first), by a bucket
-  // sort on the gain followed by an insertion sort inside each bucket; then the textbook greedy.
-  const { rowStart, cells: cellOf, gains } = pairs;
-  const P = gains.length;
-  let count = 0, top = 0;
-  for (let j = 0; j < P; j++)
-    if (gains[j] > 0) {
-      count++;
-      if (gains[j] > top) top = gains[j];
-    }
   const cellOfPoint = new Int32Array(points).fill(-1);
-  if (count === 0) return { total: 0, cellOfPoint };
-  if (greedyRowOf.length < P) {
-    greedyRowOf = new Int32Array(Math.max(P, 2 * greedyRowOf.length));
-    greedyBucketOf = new Int32Array(greedyRowOf.length);
-  }
-  const rowOf = greedyRowOf, bucketOf = greedyBucketOf;
-  for (let i = 0; i < points; i++) for (let j = rowStart[i]; j < rowStart[i + 1]; j++) rowOf[j] = i;
-  const B = Math.max(16, count);
-  const scale = (B - 1) / top;
-  if (greedyBucketStart.length < B + 1) {
-    greedyBucketStart = new Int32Array(Math.max(B + 1, 2 * greedyBucketStart.length));
-    greedyFill = new Int32Array(greedyBucketStart.length);
-    greedyOrder = new Int32Array(greedyBucketStart.length);
-  }
-  const bucketStart = greedyBucketStart;
-  bucketStart.fill(0, 0, B + 1);
-  for (let j = 0; j < P; j++) {
-    if (!(gains[j] > 0)) continue;
-    const b = Math.min(B - 1, Math.floor((top - gains[j]) * scale));
-    bucketOf[j] = b;
-    bucketStart[b + 1]++;
-  }
-  for (let b = 0; b < B; b++) bucketStart[b + 1] += bucketStart[b];
-  const order = greedyOrder;
-  const fill = greedyFill;
-  fill.set(bucketStart.subarray(0, B));
-  for (let j = 0; j < P; j++) if (gains[j] > 0) order[fill[bucketOf[j]]++] = j;
-  for (let b = 0; b < B; b++) {
-    for (let x = bucketStart[b] + 1; x < bucketStart[b + 1]; x++) {
-      const j = order[x];
-      let y = x - 1;
-      while (y >= bucketStart[b] && (gains[order[y]] < gains[j] || (gains[order[y]] === gains[j] && order[y] > j))) {
-        order[y + 1] = order[y];
-        y--;
-      }
-      order[y + 1] = j;
-    }
-  }
-  const usedCell = new Uint8Array(cells);
-  let total = 0;
-  for (let x = 0; x < count; x++) {
-    const j = order[x];
-    const i = rowOf[j], k = cellOf[j];
-    if (cellOfPoint[i] >= 0 || usedCell[k]) continue;
-    cellOfPoint[i] = k;
-    usedCell[k] = 1;
-    total += gains[j];
-  }
+  const gains = pairs.gains;
+  const top = largestFinitePositiveGain(gains);
+  if (top < 0) return { total: 0, cellOfPoint };
+  if (greedyOrder.length < gains.length) growGreedyBuffers(gains.length);
+  const bandEnd = sortIntoGainBands(gains, top);
+  const rowStart = pairs.rowStart, rowOf = greedyRowOf;
+  for (let i = 0; i < points; i++) rowOf.fill(i, rowStart[i], rowStart[i + 1]);
+  const total = greedyByBands(pairs.cells, gains, bandEnd, cellOfPoint, new Uint8Array(cells));
   return { total, cellOfPoint };
 }
 
+/** Bands of greedyMatching (33 per point on 190-point tables leaves about 300 pairs to sort). */
+const GREEDY_BANDS = 32;
+/** Above this many pairs to sort in one band, the radix sort replaces the insertion sort. */
+const GREEDY_INSERTION_LIMIT = 48;
+
+/** Largest finite gain > 0; 0 when every positive gain is +Infinity; -1 when no gain is positive. */
+function largestFinitePositiveGain(gains: Float64Array): number {
+  let top = -1;
+  for (let j = 0; j < gains.length; j++) {
+    const g = gains[j];
+    if (g > 0) {
+      if (g === Infinity) {
+        if (top < 0) top = 0;
+      } else if (g > top) top = g;
+    }
+  }
+  return top;
+}
+
+/**
+ * Stable counting sort of the pairs with g > 0 into GREEDY_BANDS bands of
+ * decreasing gain (see greedyMatching); leaves the pair indices, band after
+ * band and in index order inside a band, in greedyOrder and returns the end
+ * of each band.
+ */
+function sortIntoGainBands(gains: Float64Array, top: number): Int32Array {
+  const end = greedyBandEnd, bandOf = greedyBandOf, order = greedyOrder;
+  const P = gains.length, last = GREEDY_BANDS - 1;
+  let scale = GREEDY_BANDS / top;
+  if (!(scale < Infinity)) scale = 0; // top 0 or subnormal: one band, sorted exactly
+  end.fill(0);
+  for (let j = 0; j < P; j++) {
+    const g = gains[j];
+    let b = -1;
+    if (g > 0) {
+      // (top - g) * scale is in [0, B(1 + eps)] for finite g, -Infinity (or NaN when scale = 0) for +Infinity: | 0 maps those to 0.
+      b = Math.min(last, ((top - g) * scale) | 0);
+      end[b]++;
+    }
+    bandOf[j] = b;
+  }
+  let sum = 0;
+  for (let b = 0; b < GREEDY_BANDS; b++) {
+    const c = end[b];
+    end[b] = sum;
+    sum += c;
+  }
+  for (let j = 0; j < P; j++) {
+    const b = bandOf[j];
+    if (b >= 0) order[end[b]++] = j;
+  }
+  return end;
+}
+
+/** The greedy over the bands of greedyOrder; fills cellOfPoint and usedCell, returns the total gain. */
+function greedyByBands(
+  cellOf: Int32Array,
+  gains: Float64Array,
+  bandEnd: Int32Array,
+  cellOfPoint: Int32Array,
+  usedCell: Uint8Array,
+): number {
+  const order = greedyOrder, rowOf = greedyRowOf, free = greedyFree;
+  let total = 0;
+  let lo = 0;
+  for (let b = 0; b < GREEDY_BANDS; b++) {
+    const hi = bandEnd[b];
+    let s = 0;
+    for (let x = lo; x < hi; x++) {
+      const j = order[x];
+      if (cellOfPoint[rowOf[j]] < 0 && usedCell[cellOf[j]] === 0) free[s++] = j;
+    }
+    lo = hi;
+    if (s > 1) sortByGainDescending(free, s, gains);
+    for (let x = 0; x < s; x++) {
+      const j = free[x];
+      const i = rowOf[j], k = cellOf[j];
+      if (cellOfPoint[i] >= 0 || usedCell[k] !== 0) continue;
+      cellOfPoint[i] = k;
+      usedCell[k] = 1;
+      total += gains[j];
+    }
+  }
+  return total;
+}
+
+/**
+ * Sorts list[0..s), pair indices in ascending order with gains > 0, by
+ * descending gain; equal gains keep their (index) order.
+ */
+function sortByGainDescending(list: Int32Array, s: number, gains: Float64Array): void {
+  if (s > GREEDY_INSERTION_LIMIT) {
+    radixSortByGainDescending(list, s, gains);
+    return;
+  }
+  for (let x = 1; x < s; x++) {
+    const j = list[x];
+    const g = gains[j];
+    let y = x - 1;
+    while (y >= 0) {
+      const o = list[y];
+      if (gains[o] >= g) break;
+      list[y + 1] = o;
+      y--;
+    }
+    list[y + 1] = j;
+  }
+}
+
+const LITTLE_ENDIAN = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+
+/**
+ * Stable LSD radix sort of list[0..s) by descending gain, on the 8 bytes of
+ * each gain's IEEE-754 bit pattern (for doubles > 0, including +Infinity, the
+ * pattern read as an unsigned integer orders like the value), least
+ * significant byte first, with complemented digits for the descending order.
+ * Passes in which every key has the same digit are skipped.
+ */
+function radixSortByGainDescending(list: Int32Array, s: number, gains: Float64Array): void {
+  if (radixKeys.length < s) {
+    const size = Math.max(s, 2 * radixKeys.length);
+    radixKeys = new Float64Array(size);
+    radixKeysSpare = new Float64Array(size);
+    radixListSpare = new Int32Array(size);
+  }
+  let keys: Float64Array = radixKeys, keysSpare: Float64Array = radixKeysSpare;
+  let src: Int32Array = list, dst: Int32Array = radixListSpare;
+  for (let x = 0; x < s; x++) keys[x] = gains[list[x]];
+  for (let pass = 0; pass < 8; pass++) {
+    const word = (pass >> 2) ^ (LITTLE_ENDIAN ? 0 : 1); // low 32 bits first
+    const shift = (pass & 3) * 8;
+    const words = new Uint32Array(keys.buffer, 0, 2 * s);
+    if (!radixDigitStarts(words, word, shift, s)) continue;
+    const start = radixStarts;
+    for (let x = 0; x < s; x++) {
+      const at = start[255 - ((words[2 * x + word] >>> shift) & 255)]++;
+      dst[at] = src[x];
+      keysSpare[at] = keys[x];
+    }
+    const t = src;
+    src = dst;
+    dst = t;
+    const tk = keys;
+    keys = keysSpare;
+    keysSpare = tk;
+  }
+  if (src !== list) list.set(src.subarray(0, s));
+}
+
+/** Start of each complemented digit in radixStarts; false when all s keys share the digit (nothing to move). */
+function radixDigitStarts(words: Uint32Array, word: number, shift: number, s: number): boolean {
+  const start = radixStarts;
+  start.fill(0);
+  for (let x = 0; x < s; x++) start[255 - ((words[2 * x + word] >>> shift) & 255)]++;
+  let sum = 0;
+  for (let d = 0; d < 256; d++) {
+    const c = start[d];
+    if (c === s) return false;
+    start[d] = sum;
+    sum += c;
+  }
+  return true;
+}
+
+function growGreedyBuffers(P: number): void {
+  const size = Math.max(P, 2 * greedyOrder.length);
+  greedyOrder = new Int32Array(size);
+  greedyRowOf = new Int32Array(size);
+  greedyBandOf = new Int32Array(size);
+  greedyFree = new Int32Array(size);
+}
+
 // Scratch buffers of greedyMatching (reused across calls; single-threaded per worker).
-let greedyRowOf = new Int32Array(0);
-let greedyBucketOf = new Int32Array(0);
-let greedyBucketStart = new Int32Array(0);
-let greedyFill = new Int32Array(0);
 let greedyOrder = new Int32Array(0);
+let greedyRowOf = new Int32Array(0);
+let greedyBandOf = new Int32Array(0);
+let greedyFree = new Int32Array(0);
+const greedyBandEnd = new Int32Array(GREEDY_BANDS);
+let radixKeys = new Float64Array(0);
+let radixKeysSpare = new Float64Array(0);
+let radixListSpare = new Int32Array(0);
+const radixStarts = new Int32Array(256);

@@ -152,4 +152,77 @@ describe('greedyMatching', () => {
       { seed: 7, numRuns: 100 },
     );
   });
+  /** Reference greedy on a PairGains table: every pair with g > 0 sorted by a comparator (gain descending, pair index ascending). */
+  function referenceGreedy(t: PairGains, points: number): { total: number; cellOfPoint: number[] } {
+    const rowOf: number[] = [];
+    for (let i = 0; i < points; i++) for (let j = t.rowStart[i]; j < t.rowStart[i + 1]; j++) rowOf[j] = i;
+    const order = Array.from(t.gains.keys()).filter((j) => t.gains[j] > 0);
+    order.sort((a, b) => (t.gains[a] > t.gains[b] ? -1 : t.gains[a] < t.gains[b] ? 1 : a - b));
+    const cellOfPoint = new Array<number>(points).fill(-1);
+    const usedCell = new Set<number>();
+    let total = 0;
+    for (const j of order) {
+      const i = rowOf[j], k = t.cells[j];
+      if (cellOfPoint[i] >= 0 || usedCell.has(k)) continue;
+      cellOfPoint[i] = k;
+      usedCell.add(k);
+      total += t.gains[j];
+    }
+    return { total, cellOfPoint };
+  }
+
+  /** Sparse table: row i lists its distinct cells with their gains. */
+  function sparseTable(rows: { cell: number; gain: number }[][]): PairGains {
+    const rowStart = [0], cells: number[] = [], g: number[] = [];
+    for (const row of rows) {
+      for (const p of row) {
+        cells.push(p.cell);
+        g.push(p.gain);
+      }
+      rowStart.push(cells.length);
+    }
+    return { rowStart: Int32Array.from(rowStart), cells: Int32Array.from(cells), gains: Float64Array.from(g), distances: new Float64Array(g.length) };
+  }
+
+  it('gives the comparator-sorted greedy bit for bit: same cellOfPoint, same total (property, fixed seed, ties, equal and extreme gains)', () => {
+    const gain = fc.oneof(
+      fc.integer({ min: -2, max: 4 }), // many exact ties, zeros and negatives (never taken)
+      fc.double({ min: 1e-3, max: 8, noNaN: true }),
+      fc.constantFrom(1, 1 + 2 ** -52, 1 + 2 ** -51, 1e9, 5e-324, Infinity, Number.NaN), // near-equal, huge (one band for the rest), subnormal
+    );
+    fc.assert(
+      fc.property(
+        fc.integer({ min: 1, max: 40 }).chain((cells) =>
+          fc.tuple(
+            fc.constant(cells),
+            fc.array(fc.uniqueArray(fc.record({ cell: fc.nat({ max: cells - 1 }), gain }), { selector: (p) => p.cell, maxLength: 25 }), {
+              minLength: 1,
+              maxLength: 40,
+            }),
+          ),
+        ),
+        ([cells, rows]) => {
+          const t = sparseTable(rows);
+          const m = greedyMatching(t, rows.length, cells);
+          const r = referenceGreedy(t, rows.length);
+          expect(Array.from(m.cellOfPoint)).toEqual(r.cellOfPoint);
+          expect(Object.is(m.total, r.total)).toBe(true);
+        },
+      ),
+      { seed: 20261202, numRuns: 300 },
+    );
+  });
+
+  it('orders a band of hundreds of pairs exactly (one huge gain puts the other 1,199 pairs, with ties, in one band)', () => {
+    // 60 points x 20 cells each, gains k/7 for k in 1..5 (exact ties) and one gain of 1e9.
+    const rows = Array.from({ length: 60 }, (_, i) =>
+      Array.from({ length: 20 }, (_, c) => ({ cell: (i * 7 + c * 3) % 60, gain: i === 17 && c === 4 ? 1e9 : (((i * 13 + c * 5) % 5) + 1) / 7 })),
+    );
+    const t = sparseTable(rows);
+    const m = greedyMatching(t, 60, 60);
+    const r = referenceGreedy(t, 60);
+    expect(Array.from(m.cellOfPoint)).toEqual(r.cellOfPoint);
+    expect(Object.is(m.total, r.total)).toBe(true);
+    expect(m.cellOfPoint[17]).toBe((17 * 7 + 4 * 3) % 60);
+  });
 });
