@@ -15,6 +15,8 @@ import type { CellModel } from './cell-model.js';
 
 export interface CellGrid {
   readonly dim: number;
+  /** Hit radius nu (Mahalanobis units) the grid was built for: lookups never miss a cell within it. */
+  readonly radius: number;
   readonly origin: Float64Array;
   readonly voxel: number;
   readonly shape: Int32Array;
@@ -125,7 +127,7 @@ export function buildCellGrid(model: CellModel, radius: number, voxel?: number):
   const cells = new Int32Array(entries);
   const fill = offsets.slice(0, total);
   for (let e = 0; e < entries; e++) cells[fill[entryVoxel[e]]++] = entryCell[e];
-  return { dim: d, origin: lo, voxel: h, shape, offsets, cells };
+  return { dim: d, radius, origin: lo, voxel: h, shape, offsets, cells };
 }
 
 /**

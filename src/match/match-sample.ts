@@ -113,8 +113,14 @@ export interface PreparedTemplate {
   readonly density: DensityGrid;
   /** Cell lists for pair gains, radius 3.5 (pairs beyond it are ignored). */
   readonly pairGrid: CellGrid;
-  /** Cell lists for annealed gains (covariances x 4): radius 7. */
-  readonly annealGrid: CellGrid;
+  /**
+   * Cell lists for positive pair gains at every annealing level, radii
+   * ascending (3.5 = pairGrid, then 4.5, 5.5, 7); matchFree takes the
+   * smallest that reaches every pair with g_ik > 0 (gridForPositivePairs).
+   */
+  readonly positiveGrids: readonly CellGrid[];
+  /** Smallest log det S_k over the cells. */
+  readonly minLogDet: number;
   /** Principal axes of the template means (columns) and their centroid. */
   readonly axes: number[][];
   readonly centroid: number[];
@@ -143,14 +149,21 @@ export function prepareTemplate(template: Template): PreparedTemplate {
   const descriptors = learnCellDescriptors(template, model, createRng(0x5eed));
   const density = buildDensityGrid(model);
   const pairGrid = buildCellGrid(model, 3.5 * Math.sqrt(MAX_INFLATION));
-  const annealGrid = buildCellGrid(model, 3.5 * Math.sqrt(ANNEALING[0]), 2 * pairGrid.voxel);
+  // Wider grids for the annealed (inflated) gains; coarser voxels keep their lists short.
+  const positiveGrids = [
+    pairGrid,
+    buildCellGrid(model, 4.5, 1.5 * pairGrid.voxel),
+    buildCellGrid(model, 5.5, 1.5 * pairGrid.voxel),
+    buildCellGrid(model, 3.5 * Math.sqrt(ANNEALING[0]), 2 * pairGrid.voxel),
+  ];
+  const minLogDet = Math.min(...model.logDets);
   const d = model.dim;
   const centroid = new Array<number>(d).fill(0);
   for (const m of model.meanRows) for (let a = 0; a < d; a++) centroid[a] += m[a] / model.size;
   const scatter = Array.from({ length: d }, () => new Array<number>(d).fill(0));
   for (const m of model.meanRows) for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) scatter[a][b] += (m[a] - centroid[a]) * (m[b] - centroid[b]);
   const axes = symmetricEigen(scatter).vectors;
-  const prepared = { model, descriptors, density, pairGrid, annealGrid, axes, centroid };
+  const prepared = { model, descriptors, density, pairGrid, positiveGrids, minLogDet, axes, centroid };
   cache.set(template, prepared);
   return prepared;
 }
@@ -269,10 +282,9 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const screen = (ts: readonly Transform[]): { transform: Transform; gain: number }[] => {
     let pool = ts.map((t) => ({ transform: t, gain: -Infinity }));
     ANNEALING.forEach((inflation, level) => {
-      const grid = inflation > 1 ? prepared.annealGrid : prepared.pairGrid;
       pool = pool
         .map((c) => {
-          const r = hardEmRefine(model, grid, points, c.transform, 'similarity', limits, { ...params, inflation }, fixed, { iterations: 4 });
+          const r = hardEmRefine(prepared, points, c.transform, 'similarity', limits, { ...params, inflation }, fixed, { iterations: 4 });
           return { transform: r.transform, gain: r.gain };
         })
         .sort((a, b) => b.gain - a.gain);
@@ -302,16 +314,16 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const finalists = distinctTransforms(screened.map((s) => s.transform), points, FINALISTS, 2 * typicalSpacing(model)).filter((t, i) => i === 0 || screenGainOf(t) >= screened[0].gain - FINALIST_GAP);
   const greedyObjective = (t: Transform): number => {
     if (!isPlausible(t, affineLimits)) return -Infinity;
-    return matchingGain(model, prepared.pairGrid, points, t, params, fixed, false);
+    return matchingGain(prepared, points, t, params, fixed, false);
   };
   const spacing0 = typicalSpacing(model);
   const refined = finalists.map((t) => {
     const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: spacing0 / 2 }, 'similarity', COMPASS_EVALUATIONS);
-    return { transform: c.transform, gain: matchingGain(model, prepared.pairGrid, points, c.transform, params, fixed, true) };
+    return { transform: c.transform, gain: matchingGain(prepared, points, c.transform, params, fixed, true) };
   });
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
   // Affine refinement of the chosen pose (hard EM on the matching, greedy).
-  const finalPose = hardEmRefine(model, prepared.pairGrid, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
+  const finalPose = hardEmRefine(prepared, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
   // The other distinct pose modes weigh in on the confidences (model averaging over poses).
   // Competing modes for the confidences: every distinct mode of the screening, weighed by its
   // screening gain against the winner's (all at the same stage, hence comparable); finalists
@@ -380,8 +392,9 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     // Stage 4: assignment and posteriors.
     const gains = pairGains(model, prepared.pairGrid, mapped, jac, params);
     const modes = otherModes
-      .map((m) => ({ gains: pairGains(model, prepared.pairGrid, mapPoints(m.transform, points), jacobianOf(m.transform), params), weight: Math.exp(Math.min(0, m.gain - bestGain)) }))
-      .filter((m) => m.weight > 1e-6);
+      .map((m) => ({ transform: m.transform, weight: Math.exp(Math.min(0, m.gain - bestGain)) }))
+      .filter((m) => m.weight > 1e-6)
+      .map((m) => ({ gains: pairGains(model, prepared.pairGrid, mapPoints(m.transform, points), jacobianOf(m.transform), params), weight: m.weight }));
     const proposals = assignAndScore(model, gains, mapped, fixedCell, sample.labels, radius, options.abstainBelow ?? 0, modes);
     let hits = 0, score = 0;
     proposals.forEach((p, i) => {
@@ -410,29 +423,30 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
  * `exact`).
  */
 function matchingGain(
-  model: CellModel,
-  grid: CellGrid,
+  prepared: PreparedTemplate,
   points: Points,
   t: Transform,
   params: MatchModelParameters,
   fixed: readonly Pair[],
   exact: boolean,
 ): number {
-  return matchFree(model, grid, points, t, params, fixed, exact).gain;
+  return matchFree(prepared, points, t, params, fixed, exact).gain;
 }
 
 /** The one-to-one matching of the free points and cells at the map t, given pairs kept (see matchingGain). */
 function matchFree(
-  model: CellModel,
-  grid: CellGrid,
+  prepared: PreparedTemplate,
   points: Points,
   t: Transform,
   params: MatchModelParameters,
   fixed: readonly Pair[],
   exact: boolean,
 ): { gain: number; cellOfPoint: Int32Array } {
+  const { model } = prepared;
   const n = points.length, K = model.size;
-  const g = pairGains(model, grid, mapPoints(t, points), jacobianOf(t), params, true, true);
+  const jacobian = jacobianOf(t);
+  const grid = gridForPositivePairs(prepared, jacobian, params);
+  const g = pairGains(model, grid, mapPoints(t, points), jacobian, params, true, true);
   const fg = fixedGain(model, points, t, params, fixed);
   if (fixed.length === 0) {
     const m = exact ? exactMatching(g, n, K) : greedyMatching(g, n, K);
@@ -450,6 +464,30 @@ function matchFree(
   rows.forEach((i, r) => (cellOfPoint[i] = m.cellOfPoint[r]));
   for (const f of fixed) cellOfPoint[f.point] = f.cell;
   return { gain: m.total + fg, cellOfPoint };
+}
+
+/**
+ * The part of the pair gain g_ik common to all pairs (softassign.ts):
+ * log(rho J) - log(Lambda u) - log(1 - rho) - (d/2) log(2 pi c), c the inflation.
+ */
+function pairGainOffset(d: number, jacobian: number, params: MatchModelParameters): number {
+  const infl = params.inflation ?? 1;
+  return Math.log(params.detection * jacobian) - Math.log(params.outliers * params.outlierDensity) - Math.log(1 - params.detection) - 0.5 * d * Math.log(2 * Math.PI * infl);
+}
+
+/**
+ * The smallest of the prepared grids that lists every pair with g_ik > 0:
+ * g_ik = offset - (1/2) log det S_k - e2 / (2c) > 0 needs
+ * e2 < 2c (offset - (1/2) min_k log det S_k), and pairGains never keeps
+ * e2 > 3.5^2 c; so a grid of radius sqrt of the smaller bound misses none.
+ */
+function gridForPositivePairs(prepared: PreparedTemplate, jacobian: number, params: MatchModelParameters): CellGrid {
+  const infl = params.inflation ?? 1;
+  const bound = 2 * infl * (pairGainOffset(prepared.model.dim, jacobian, params) - 0.5 * prepared.minLogDet);
+  const reach = Math.sqrt(Math.max(0, Math.min(12.25 * infl, bound)));
+  const grids = prepared.positiveGrids;
+  for (const g of grids) if (g.radius >= reach) return g;
+  throw new Error(`internal: no prepared cell grid reaches ${reach.toFixed(2)} Mahalanobis units`);
 }
 
 /** rho and Lambda re-estimated from the one-to-one posterior (three Sinkhorn rounds). */
@@ -477,10 +515,8 @@ function jacobianOf(t: Transform): number {
  */
 function fixedGain(model: CellModel, points: Points, t: Transform, params: MatchModelParameters, fixed: readonly Pair[]): number {
   if (fixed.length === 0) return 0;
-  const d = model.dim;
   const infl = params.inflation ?? 1;
-  const base =
-    Math.log(params.detection * jacobianOf(t)) - Math.log(params.outliers * params.outlierDensity) - Math.log(1 - params.detection) - 0.5 * d * Math.log(2 * Math.PI * infl);
+  const base = pairGainOffset(model.dim, jacobianOf(t), params);
   let s = 0;
   const mapped = mapPoints(t, fixed.map((f) => points[f.point]));
   fixed.forEach((f, i) => {
@@ -604,8 +640,7 @@ function typicalSpacing(model: CellModel): number {
  * (rho, Lambda), so that results from different starts compare.
  */
 export function hardEmRefine(
-  model: CellModel,
-  grid: CellGrid,
+  prepared: PreparedTemplate,
   points: Points,
   start: Transform,
   kind: Transform['kind'],
@@ -615,12 +650,12 @@ export function hardEmRefine(
   options: { iterations?: number; exact?: boolean } = {},
 ): { transform: Transform; gain: number; iterations: number } {
   const evaluate = (t: Transform): { gain: number; cellOfPoint: Int32Array } =>
-    matchFree(model, grid, points, t, params, fixed, options.exact ?? false);
+    matchFree(prepared, points, t, params, fixed, options.exact ?? false);
   let cur = start;
   let e = evaluate(cur);
   let it = 0;
   for (; it < (options.iterations ?? 10); it++) {
-    const next = fitMatching(model, points, e.cellOfPoint, kind, limits);
+    const next = fitMatching(prepared.model, points, e.cellOfPoint, kind, limits);
     if (next === null) break;
     const en = evaluate(next);
     if (en.gain <= e.gain + 1e-6) break;

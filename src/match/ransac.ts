@@ -2,7 +2,8 @@
  * Robust search for the pose of an unlabelled sample: guided, geometrically
  * consistent RANSAC (Fischler & Bolles 1981) with progressive sampling
  * (PROSAC; Chum & Matas 2005). The score and the local optimisation of every
- * new best (LO-RANSAC; Chum, Matas & Kittler 2003) come from the caller
+ * hypothesis with a new best raw score (LO-RANSAC; Chum, Matas & Kittler
+ * 2003) come from the caller
  * (`PoseObjective`; matchSample uses the MLESAC likelihood of
  * density-grid.ts and EM steps of refine.ts).
  *
@@ -85,7 +86,7 @@ export interface SearchResult extends PoseEstimate {
   /** Trials at which the best score last improved. */
   readonly lastImprovement: number;
   readonly stopReason: 'bound' | 'max-trials' | 'exhaustive';
-  /** The best distinct poses found, best first (the first is the result). */
+  /** The best distinct poses found, best first (the first is the result; the others are locally optimised only when they were a new best when drawn). */
   readonly alternatives: readonly PoseEstimate[];
 }
 
@@ -198,12 +199,19 @@ export function searchPose(
   let needed = Infinity;
 
   const top: PoseEstimate[] = [];
+  let bestRaw = -Infinity;
   const consider = (t: Transform | null): void => {
     if (!t) return;
     const s = objective.score(t);
-    const worst = top.length >= keep ? top[top.length - 1].score : -Infinity;
-    if (s.score <= worst && best && s.score <= best.score) return;
-    const improved = objective.optimise({ transform: t, score: s.score, hits: s.hits });
+    const raw = { transform: t, score: s.score, hits: s.hits };
+    // Local optimisation only for a new best raw score (Chum, Matas & Kittler 2003); other
+    // hypotheses compete for the kept poses as they are (the caller refines those later).
+    if (best && s.score <= bestRaw) {
+      remember(raw);
+      return;
+    }
+    bestRaw = s.score;
+    const improved = objective.optimise(raw);
     remember(improved);
     if (!best || improved.score > best.score) {
       best = improved;
@@ -216,6 +224,7 @@ export function searchPose(
   const probes = points.filter((_, i) => i % Math.max(1, Math.floor(points.length / 24)) === 0);
   const distinctBy = options.distinctBy ?? 2;
   const remember = (pose: PoseEstimate): void => {
+    if (top.length >= keep && pose.score <= top[top.length - 1].score) return;
     for (let j = 0; j < top.length; j++) {
       if (poseDistance(top[j].transform, pose.transform, probes) < distinctBy) {
         if (pose.score > top[j].score) {

@@ -1,7 +1,7 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME] [--per-animal]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
@@ -61,6 +61,7 @@ const maxTrialsArg = argValue('max-trials', '');
 const maxTrials = maxTrialsArg ? Number(maxTrialsArg) : undefined;
 const quick = process.argv.includes('--quick');
 const only = argValue('only', '');
+const perAnimal = process.argv.includes('--per-animal');
 
 interface Tally {
   trueCells: number;
@@ -246,8 +247,13 @@ function runCase(spec: CaseSpec): void {
       const proposals = result
         ? result.proposals
         : sample.coords.map(() => ({ label: null, confidence: 0, distance: null, alternatives: [] }));
+      const before = { correct: tally.correct, oracle: tally.oracleCorrect };
       score(tally, animal, proposals, given);
       tally.oracleCorrect += oracleCorrect(template, layout, layoutToTemplate, animal, sample, given);
+      if (perAnimal) {
+        const c = tally.correct - before.correct, o = tally.oracleCorrect - before.oracle;
+        console.log(`  ${v.name}: ${animal.sample.id} ${c} correct, oracle ${o}, ratio ${(c / Math.max(1, o)).toFixed(3)}, ${result?.trials ?? 0} trials (${result?.stopReason ?? 'failed'})`);
+      }
     }
     console.log(report(v.name, tally));
     if (v.name === 'ransac') {
