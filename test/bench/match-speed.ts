@@ -1,7 +1,7 @@
 /**
  * Matching speed (a benchmark, not a test; timings depend on the machine and its load):
  *
- *   npx tsx test/bench/match-speed.ts [--animals N] [--seed S] [--max-trials T]
+ *   npx tsx test/bench/match-speed.ts [--animals N] [--seed S] [--max-trials T] [--arrangement ganglia|uniform]
  *
  * One thread. A 190-cell template (built from the layout itself, so that the
  * template module's cost is not counted) and samples of 190 points (171 cells
@@ -25,9 +25,12 @@ function argValue(name: string, fallback: string): string {
 const count = Number(argValue('animals', '10'));
 const seed = Number(argValue('seed', '11'));
 const maxTrials = argValue('max-trials', '');
+/** How cells fill the head (test/support/animals.ts): ganglia with gaps (as real heads group nuclei), or uniform packing. */
+const arrangement = argValue('arrangement', 'ganglia');
+if (arrangement !== 'ganglia' && arrangement !== 'uniform') throw new Error(`--arrangement must be ganglia or uniform, got ${arrangement}`);
 
 const rng = createRng(seed);
-const layout = generateLayout(rng, { cells: 190, dim: 3 });
+const layout = generateLayout(rng, { cells: 190, dim: 3, arrangement });
 const template = templateFromTraining(layout, rng, { members: 25 });
 const cpuSeconds = (since: NodeJS.CpuUsage): number => {
   const u = process.cpuUsage(since);
@@ -66,5 +69,5 @@ function medianOf(xs: number[]): number {
 const median = medianOf(times);
 const meanRate = rates.reduce((s, r) => s + r, 0) / rates.length;
 console.log(`template preparation (once per template): ${prepSeconds.toFixed(2)} s wall, ${prepCpu.toFixed(2)} s CPU`);
-console.log(`median time to match 190 points to 190 cells, one thread: ${median.toFixed(3)} s wall, ${medianOf(cpuTimes).toFixed(3)} s CPU (target <= 0.3 s)`);
+console.log(`median time to match 190 points to 190 cells (${arrangement} layout), one thread: ${median.toFixed(3)} s wall, ${medianOf(cpuTimes).toFixed(3)} s CPU (target <= 0.3 s)`);
 console.log(`hypotheses per second of whole-match time: ${meanRate.toFixed(0)}`);
