@@ -9,7 +9,7 @@ import { TEMPLATE_FORMAT, TEMPLATE_VERSION } from '../types.js';
 import { VERSION } from '../version.js';
 import { addObservationInPlace, cellsFromSums, emptySums, type CellSums } from './cell-statistics.js';
 import { coRegister, type CoRegistration, type IterationDiagnostics, type LabelledEntry, type SkippedSample } from './co-register.js';
-import { likelierCell } from './likelier-cell.js';
+import { likelierCellFinder } from './likelier-cell.js';
 import { sampleHash } from './sample-hash.js';
 import { resolveSettings, type BuildOptions } from './settings.js';
 
@@ -80,17 +80,22 @@ export function registerAndSummarise(entries: readonly LabelledEntry[], settings
     settings.minCount,
   );
   const cellByLabel = new Map(cells.map((c) => [c.label, c]));
+  // Template cell of each registration cell index (undefined when the cell has no kept observation).
+  const cellAt = reg.cells.map((label) => cellByLabel.get(label));
+  const likelier = likelierCellFinder(cells);
   const rank = new Map(order.map((id, i) => [id, i]));
   const members: { m: TemplateMember; r: number }[] = [];
   const flagged: { f: FlaggedLabel; r: number }[] = [];
   reg.entries.forEach((e, i) => {
     let res = 0, used = 0;
+    const keptRow = reg.kept[i], cellRow = reg.cellOf[i], alignedRow = aligned[i];
     for (let j = 0; j < e.labels.length; j++) {
-      const cell = cellByLabel.get(e.labels[j]);
-      if (reg.kept[i][j] && cell) {
-        for (let a = 0; a < dim; a++) res += (aligned[i][j][a] - cell.mean[a]) ** 2;
+      const cell = cellAt[cellRow[j]];
+      if (keptRow[j] && cell) {
+        const y = alignedRow[j], m = cell.mean;
+        for (let a = 0; a < dim; a++) res += (y[a] - m[a]) ** 2;
         used++;
-      } else if (!reg.kept[i][j]) {
+      } else if (!keptRow[j]) {
         flagged.push({
           r: rank.get(e.id) ?? Number.MAX_SAFE_INTEGER,
           f: {
@@ -98,11 +103,13 @@ export function registerAndSummarise(entries: readonly LabelledEntry[], settings
             row: e.rows[j],
             label: e.labels[j],
             distance: reg.distance[i][j],
-            ...likelierCell(aligned[i][j], e.labels[j], cells),
+            ...likelier(alignedRow[j], e.labels[j]),
           },
         });
       }
     }
+    const positions: TemplateMember['positions'][number][] = new Array(e.labels.length);
+    for (let j = 0; j < e.labels.length; j++) positions[j] = { label: e.labels[j], coords: e.coords[j].slice(), row: e.rows[j] };
     members.push({
       r: rank.get(e.id) ?? Number.MAX_SAFE_INTEGER,
       m: {
@@ -111,7 +118,7 @@ export function registerAndSummarise(entries: readonly LabelledEntry[], settings
         transform: reg.transforms[i],
         residual: Math.sqrt(res / Math.max(1, used)),
         labelled: used,
-        positions: e.labels.map((label, j) => ({ label, coords: e.coords[j].slice(), row: e.rows[j] })),
+        positions,
       },
     });
   });

@@ -185,7 +185,9 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
     const why = skipped.map((s) => `${s.sample}: ${s.reason}`).join('; ');
     throw new FitError(`a template needs at least 2 samples that can be aligned, got ${entries.length}${why ? ` (skipped ${why})` : ''}`);
   }
-  const cells = Array.from(new Set(entries.flatMap((e) => e.labels))).sort(byCodeUnit);
+  const labelSet = new Set<string>();
+  for (const e of entries) for (const l of e.labels) labelSet.add(l);
+  const cells = Array.from(labelSet).sort(byCodeUnit);
   const cellIndex = new Map(cells.map((c, i) => [c, i]));
   const cellOf = entries.map((e) => e.labels.map((l) => cellIndex.get(l) as number));
   const k = cells.length;
@@ -202,7 +204,10 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
   const cutoff = (n: number) => predictiveCutoff(n, dim, settings.priorStrength, settings.flagProbability, reference);
   const direction = settings.memberFit ?? 'template-to-sample';
   const applyAll = () => {
-    for (let i = 0; i < entries.length; i++) applyTransformInto(transforms[i], own[i], aligned[i], dim);
+    for (let i = 0; i < entries.length; i++) {
+      if (dim === 3) applyTransformInto3(transforms[i], own[i], aligned[i]);
+      else applyTransformInto(transforms[i], own[i], aligned[i], dim);
+    }
   };
 
   // Initial frame.
@@ -323,6 +328,20 @@ function applyTransformInto(t: Transform, x: Float64Array, out: Float64Array, di
   }
 }
 
+
+/** applyTransformInto for d = 3, unrolled: the same sums in the same order. */
+function applyTransformInto3(t: Transform, x: Float64Array, out: Float64Array): void {
+  const A = t.linear, tr = t.translation;
+  const a00 = A[0][0], a01 = A[0][1], a02 = A[0][2], a10 = A[1][0], a11 = A[1][1], a12 = A[1][2];
+  const a20 = A[2][0], a21 = A[2][1], a22 = A[2][2], t0 = tr[0], t1 = tr[1], t2 = tr[2];
+  for (let p = 0; p < x.length; p += 3) {
+    const x0 = x[p], x1 = x[p + 1], x2 = x[p + 2];
+    // 0 + ... as in the loop's sum (keeps the sign of a zero sum the same).
+    out[p] = 0 + a00 * x0 + a01 * x1 + a02 * x2 + t0;
+    out[p + 1] = 0 + a10 * x0 + a11 * x1 + a12 * x2 + t1;
+    out[p + 2] = 0 + a20 * x0 + a21 * x1 + a22 * x2 + t2;
+  }
+}
 
 /**
  * Greedy start (module comment, step 1). Each step takes the remaining sample
@@ -621,7 +640,10 @@ function robustWeightsFlat(
   for (let i = 0; i < aligned.length; i++) addMemberToMeans(aligned[i], cellOf[i], kept[i], n, mean, dim);
   for (let c = 0; c < k; c++) if (n[c] > 0) for (let a = 0; a < dim; a++) mean[c * dim + a] /= n[c];
   const scatter = new Float64Array(k * dd);
-  for (let i = 0; i < aligned.length; i++) addMemberToScatter(aligned[i], cellOf[i], kept[i], mean, scatter, dim);
+  for (let i = 0; i < aligned.length; i++) {
+    if (dim === 3) addMemberToScatter3(aligned[i], cellOf[i], kept[i], mean, scatter);
+    else addMemberToScatter(aligned[i], cellOf[i], kept[i], mean, scatter, dim);
+  }
   const scatters: { n: number; scatter: number[][] }[] = [];
   for (let c = 0; c < k; c++) {
     const m: number[][] = [];
@@ -640,7 +662,8 @@ function robustWeightsFlat(
   for (let i = 0; i < aligned.length; i++) {
     const rowKept = new Uint8Array(cellOf[i].length);
     const rowDist = new Float64Array(cellOf[i].length);
-    weighMember(aligned[i], cellOf[i], kept[i], n, mean, scatter, pooledFlat, priorStrength, dim, cutoffs, cutoff, scratch, rowKept, rowDist);
+    if (dim === 3) weighMember3(aligned[i], cellOf[i], kept[i], n, mean, scatter, pooledFlat, priorStrength, cutoffs, cutoff, rowKept, rowDist);
+    else weighMember(aligned[i], cellOf[i], kept[i], n, mean, scatter, pooledFlat, priorStrength, dim, cutoffs, cutoff, scratch, rowKept, rowDist);
     outKept.push(rowKept);
     outDist.push(rowDist);
   }
@@ -717,6 +740,104 @@ function weighMember(
       for (let b = 0; b <= a; b++) cov[a * dim + b] = (infl * (priorStrength * pooledFlat[a * dim + b] + scatter[so + a * dim + b] - f * r[a] * r[b])) / denom;
     for (let a = 0; a < dim; a++) r[a] = y[yo + a] - m1[a];
     const d2 = choleskyQuadraticForm(cov, r, dim, z);
+    let limit = cutoffs[n1];
+    if (Number.isNaN(limit)) limit = cutoffs[n1] = cutoff(n1);
+    rowKept[j] = d2 <= limit ? 1 : 0;
+    rowDist[j] = Math.sqrt(d2);
+  }
+}
+
+/** addMemberToScatter for d = 3, unrolled: the same sums in the same order. */
+function addMemberToScatter3(y: Float64Array, cells: Int32Array, kept: Uint8Array, mean: Float64Array, scatter: Float64Array): void {
+  for (let j = 0; j < cells.length; j++)
+    if (kept[j]) {
+      const c = cells[j];
+      const yo = j * 3, mo = c * 3, so = c * 9;
+      const y0 = y[yo] - mean[mo], y1 = y[yo + 1] - mean[mo + 1], y2 = y[yo + 2] - mean[mo + 2];
+      scatter[so] += y0 * y0;
+      scatter[so + 1] += y0 * y1;
+      scatter[so + 2] += y0 * y2;
+      scatter[so + 3] += y1 * y0;
+      scatter[so + 4] += y1 * y1;
+      scatter[so + 5] += y1 * y2;
+      scatter[so + 6] += y2 * y0;
+      scatter[so + 7] += y2 * y1;
+      scatter[so + 8] += y2 * y2;
+    }
+}
+
+/**
+ * weighMember for d = 3, unrolled, with the Cholesky quadratic form inline: the same
+ * operations in the same order as weighMember and choleskyQuadraticForm, so the
+ * flags and distances are equal to the bit; the same FitError when a covariance is
+ * not positive definite.
+ */
+function weighMember3(
+  y: Float64Array,
+  cells: Int32Array,
+  kept: Uint8Array,
+  n: Int32Array,
+  mean: Float64Array,
+  scatter: Float64Array,
+  pooledFlat: Float64Array,
+  priorStrength: number,
+  cutoffs: Float64Array,
+  cutoff: (n: number) => number,
+  rowKept: Uint8Array,
+  rowDist: Float64Array,
+): void {
+  const p00 = priorStrength * pooledFlat[0], p10 = priorStrength * pooledFlat[3], p11 = priorStrength * pooledFlat[4];
+  const p20 = priorStrength * pooledFlat[6], p21 = priorStrength * pooledFlat[7], p22 = priorStrength * pooledFlat[8];
+  for (let j = 0; j < cells.length; j++) {
+    const c = cells[j];
+    const yo = j * 3, mo = c * 3, so = c * 9;
+    const nc = n[c];
+    let n1 = nc;
+    const mean0 = mean[mo], mean1 = mean[mo + 1], mean2 = mean[mo + 2];
+    const y0 = y[yo], y1 = y[yo + 1], y2 = y[yo + 2];
+    const r0 = y0 - mean0, r1 = y1 - mean1, r2 = y2 - mean2;
+    let m0 = mean0, m1 = mean1, m2 = mean2;
+    const self = kept[j] === 1;
+    if (self) {
+      n1 = nc - 1;
+      // m' = (n m - y) / (n - 1); W' = W - n/(n-1) (y - m)(y - m)^T.
+      if (n1 >= 1) {
+        m0 = mean0 - r0 / n1;
+        m1 = mean1 - r1 / n1;
+        m2 = mean2 - r2 / n1;
+      }
+    }
+    if (n1 < 2) {
+      rowKept[j] = 1;
+      rowDist[j] = Number.NaN;
+      continue;
+    }
+    const f = self ? nc / n1 : 0;
+    const denom = priorStrength + n1 - 1;
+    const infl = 1 + 1 / n1;
+    // Lower triangle of the leave-one-out predictive covariance.
+    const c00 = (infl * (p00 + scatter[so] - f * r0 * r0)) / denom;
+    const c10 = (infl * (p10 + scatter[so + 3] - f * r1 * r0)) / denom;
+    const c11 = (infl * (p11 + scatter[so + 4] - f * r1 * r1)) / denom;
+    const c20 = (infl * (p20 + scatter[so + 6] - f * r2 * r0)) / denom;
+    const c21 = (infl * (p21 + scatter[so + 7] - f * r2 * r1)) / denom;
+    const c22 = (infl * (p22 + scatter[so + 8] - f * r2 * r2)) / denom;
+    const e0 = y0 - m0, e1 = y1 - m1, e2 = y2 - m2;
+    // r^T C^-1 r by C = L L^T (choleskyQuadraticForm).
+    if (!(c00 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 0 is ${c00})`);
+    const L00 = Math.sqrt(c00);
+    const z0 = e0 / L00;
+    const L10 = c10 / L00;
+    const q1 = c11 - L10 * L10;
+    if (!(q1 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 1 is ${q1})`);
+    const L11 = Math.sqrt(q1);
+    const z1 = (e1 - L10 * z0) / L11;
+    const L20 = c20 / L00;
+    const L21 = (c21 - L20 * L10) / L11;
+    const q2 = c22 - L20 * L20 - L21 * L21;
+    if (!(q2 > 0)) throw new FitError(`cell covariance is not positive definite (pivot 2 is ${q2})`);
+    const z2 = (e2 - L20 * z0 - L21 * z1) / Math.sqrt(q2);
+    const d2 = z0 * z0 + z1 * z1 + z2 * z2;
     let limit = cutoffs[n1];
     if (Number.isNaN(limit)) limit = cutoffs[n1] = cutoff(n1);
     rowKept[j] = d2 <= limit ? 1 : 0;
