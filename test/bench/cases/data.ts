@@ -36,11 +36,21 @@ export interface MatchData {
 /**
  * A template of `cells` cells from `training` animals labelled at 60% (15% missing,
  * 20% outliers), and `count` unlabelled test animals of `points` points each:
- * `missing` of the cells dropped and outliers added up to `points`.
+ * `missing` of the cells dropped and outliers added up to `points`. Cells are
+ * grouped in ganglia with gaps between them (as real heads group their
+ * nuclei; test/support/animals.ts) unless `arrangement` is 'uniform'.
  */
-export function matchData(cells: number, points: number, missing: number, count: number, seed: number, training = 30): MatchData {
+export function matchData(
+  cells: number,
+  points: number,
+  missing: number,
+  count: number,
+  seed: number,
+  training = 30,
+  arrangement: 'ganglia' | 'uniform' = 'ganglia',
+): MatchData {
   const rng = createRng(seed);
-  const layout = generateLayout(rng, { cells, dim: 3 });
+  const layout = generateLayout(rng, { cells, dim: 3, arrangement });
   const train = Array.from({ length: training }, (_, i) => generateAnimal(layout, rng, `t${i + 1}`, PARTIAL).sample);
   const template = buildTemplate(train).template;
   const kept = cells - Math.round(missing * cells);
