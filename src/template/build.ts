@@ -93,7 +93,10 @@ export function registerAndSummarise(entries: readonly LabelledEntry[], settings
       const cell = cellAt[cellRow[j]];
       if (keptRow[j] && cell) {
         const y = alignedRow[j], m = cell.mean;
-        for (let a = 0; a < dim; a++) res += (y[a] - m[a]) ** 2;
+        for (let a = 0; a < dim; a++) {
+          const e = y[a] - m[a];
+          res += e * e;
+        }
         used++;
       } else if (!keptRow[j]) {
         flagged.push({

@@ -239,7 +239,11 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
       const w = robustWeightsFlat(aligned, cellOfFlat, kept, k, dim, settings.priorStrength, cutoff);
       for (let i = 0; i < entries.length && !changed; i++) {
         const a = w.kept[i], b = kept[i];
-        for (let j = 0; j < a.length; j++) if (a[j] !== b[j]) changed = true;
+        for (let j = 0; j < a.length; j++)
+          if (a[j] !== b[j]) {
+            changed = true;
+            break;
+          }
       }
       kept = w.kept;
       distance = w.distance;
