@@ -20,6 +20,16 @@
  * rounds of augmenting row reduction. These leave duals with every reduced cost
  * >= 0, each assigned row on a column of least reduced cost, and usually few
  * free rows for the shortest-path phase; they change speed, not the optimum.
+ *
+ * Implementation notes (speed only; every comparison, order and tie rule is
+ * unchanged, so the matching is the same): costs live in one row-major
+ * Float64Array, written straight from the input (also for the abstention
+ * matrix); a square matrix's column minima are found while it is copied, row
+ * by row; a search whose first step already reaches a free column augments at
+ * once, without setting up the list of unscanned columns; each phase is a
+ * small function taking its typed arrays as arguments, which V8 optimises
+ * within the first calls and keeps optimised (one large function was
+ * re-optimised and deoptimised again and again while it warmed up).
  */
 
 import { FitError, UsageError } from '../errors.js';
@@ -67,30 +77,20 @@ export function solveAssignment(cost: readonly (readonly number[])[], options: {
   const transpose = n > m;
   const nr = transpose ? m : n;
   const nc = transpose ? n : m;
-  const c = new Float64Array(nr * nc);
-  let allFinite = true;
-  for (let i = 0; i < n; i++) {
-    const row = cost[i];
-    if (row.length !== m) throw new UsageError(`solveAssignment: row ${i} has ${row.length} entries, expected ${m}`);
-    let k = transpose ? i : i * nc;
-    const step = transpose ? nc : 1;
-    for (let j = 0; j < m; j++, k += step) {
-      const value = row[j];
-      // Finite numbers pass the first test; everything else is checked here.
-      if (typeof value !== 'number' || !(value - value === 0)) {
-        if (value !== Infinity) {
-          throw new UsageError(`solveAssignment: entry [${i}][${j}] is ${value}; costs must be finite or +Infinity (forbidden)`);
-        }
-        allFinite = false;
-      }
-      c[k] = value;
-    }
-  }
+  const c = costStorage(nr * nc);
+  const v = new Float64Array(nc);
+  const argMin = new Int32Array(nc);
+  // A square matrix also gets its column minima (for the column reduction) while it is copied.
+  const allFinite = transpose
+    ? copyCosts(cost, n, m, 1, nc, c)
+    : n === m
+      ? copySquareCostsWithColumnMinima(cost, n, c, v, argMin)
+      : copyCosts(cost, n, m, nc, 1, c);
   const rowToColumn = new Array<number>(n).fill(-1);
   const columnToRow = new Array<number>(m).fill(-1);
   if (n === 0 || m === 0) return { rowToColumn, columnToRow, total: 0 };
 
-  const col4row = lapRectangular(c, nr, nc, allFinite);
+  const col4row = lapRectangular(c, nr, nc, allFinite, v, argMin, n === m);
   if (col4row === null) {
     throw new FitError(
       `solveAssignment: the ${n} x ${m} cost matrix is infeasible: no assignment of ${nr} pairs avoids the forbidden (Infinity) entries`,
@@ -142,34 +142,129 @@ export function assignWithAbstention(
     }
     if (cost[i].length !== m) throw new UsageError(`assignWithAbstention: row ${i} has ${cost[i].length} entries, expected ${m}`);
   }
-  const augmented: number[][] = [];
+  // The augmented matrix [C | D] is written straight into the solver's storage
+  // (entries checked as solveAssignment checks them, with its messages).
+  const width = m + n;
+  const c = costStorage(n * width).fill(Infinity);
+  let allFinite = copyCosts(cost, n, m, width, 1, c);
+  for (let i = 0; i < n; i++) c[i * width + m + i] = abstainCost[i];
+  if (n > 1 || (n === 1 && abstainCost[0] === Infinity)) allFinite = false;
+  const rowToColumn = new Array<number>(n).fill(-1);
+  const columnToRow = new Array<number>(m).fill(-1);
+  if (n === 0) return { rowToColumn, columnToRow, total: 0, abstentions: 0 };
+  const col4row = lapRectangular(c, n, width, allFinite, new Float64Array(width), new Int32Array(width), false);
+  if (col4row === null) {
+    throw new FitError(
+      `assignWithAbstention: the ${n} x ${m} problem is infeasible: some rows can neither take a finite column nor abstain`,
+    );
+  }
+  let total = 0;
+  let abstentions = 0;
   for (let i = 0; i < n; i++) {
-    const row = new Array<number>(m + n).fill(Infinity);
-    for (let j = 0; j < m; j++) row[j] = cost[i][j];
-    row[m + i] = abstainCost[i];
-    augmented.push(row);
-  }
-  let solved: Assignment;
-  try {
-    solved = solveAssignment(augmented);
-  } catch (e) {
-    if (e instanceof FitError) {
-      throw new FitError(
-        `assignWithAbstention: the ${n} x ${m} problem is infeasible: some rows can neither take a finite column nor abstain`,
-      );
+    const j = col4row[i];
+    if (j < m) {
+      rowToColumn[i] = j;
+      columnToRow[j] = i;
+      total += cost[i][j];
+    } else {
+      abstentions++;
+      total += abstainCost[i];
     }
-    throw e;
   }
-  const rowToColumn = solved.rowToColumn.map((j) => (j >= m ? -1 : j));
-  const columnToRow = solved.columnToRow.slice(0, m);
-  const abstentions = rowToColumn.filter((j) => j < 0).length;
-  return { rowToColumn, columnToRow, total: solved.total, abstentions };
+  return { rowToColumn, columnToRow, total, abstentions };
+}
+
+/**
+ * Row-major storage for `size` costs: a view of one buffer kept between calls
+ * (this module is single-threaded per worker, and no call keeps the view),
+ * so that repeated solves neither allocate nor zero a new matrix each time.
+ * Buffers above COST_STORAGE_KEPT entries are not kept.
+ */
+function costStorage(size: number): Float64Array {
+  if (size > COST_STORAGE_KEPT) return new Float64Array(size);
+  if (costBuffer.length < size) costBuffer = new Float64Array(Math.max(size, Math.min(COST_STORAGE_KEPT, 2 * costBuffer.length)));
+  return costBuffer.subarray(0, size);
+}
+
+/** Largest cost matrix whose storage is kept between calls (8 MB). */
+const COST_STORAGE_KEPT = 1 << 20;
+let costBuffer = new Float64Array(0);
+
+/**
+ * Copies the n x m matrix `cost` into `out` (entry [i][j] at i * rowStride +
+ * j * columnStride), checking it as solveAssignment documents. Returns whether
+ * every entry is finite.
+ */
+function copyCosts(
+  cost: readonly (readonly number[])[],
+  n: number,
+  m: number,
+  rowStride: number,
+  columnStride: number,
+  out: Float64Array,
+): boolean {
+  let allFinite = true;
+  for (let i = 0; i < n; i++) {
+    const row = cost[i];
+    if (row.length !== m) throw new UsageError(`solveAssignment: row ${i} has ${row.length} entries, expected ${m}`);
+    for (let j = 0, k = i * rowStride; j < m; j++, k += columnStride) {
+      const value = row[j];
+      // Finite numbers pass the first test; everything else is checked here.
+      if (typeof value !== 'number' || !(value - value === 0)) {
+        if (value !== Infinity) {
+          throw new UsageError(`solveAssignment: entry [${i}][${j}] is ${value}; costs must be finite or +Infinity (forbidden)`);
+        }
+        allFinite = false;
+      }
+      out[k] = value;
+    }
+  }
+  return allFinite;
+}
+
+/**
+ * copyCosts for a square n x n matrix without transposition that also sets
+ * v[j] = min_i cost[i][j] and argMin[j] = the lowest such row (-1 for a
+ * column of +Infinity only), as columnMinima does, in the same sweep.
+ */
+function copySquareCostsWithColumnMinima(
+  cost: readonly (readonly number[])[],
+  n: number,
+  out: Float64Array,
+  v: Float64Array,
+  argMin: Int32Array,
+): boolean {
+  let allFinite = true;
+  v.fill(Infinity);
+  argMin.fill(-1);
+  for (let i = 0, k = 0; i < n; i++) {
+    const row = cost[i];
+    if (row.length !== n) throw new UsageError(`solveAssignment: row ${i} has ${row.length} entries, expected ${n}`);
+    for (let j = 0; j < n; j++, k++) {
+      const value = row[j];
+      if (typeof value !== 'number' || !(value - value === 0)) {
+        if (value !== Infinity) {
+          throw new UsageError(`solveAssignment: entry [${i}][${j}] is ${value}; costs must be finite or +Infinity (forbidden)`);
+        }
+        allFinite = false;
+      }
+      out[k] = value;
+      if (value < v[j]) {
+        v[j] = value;
+        argMin[j] = i;
+      }
+    }
+  }
+  return allFinite;
 }
 
 /**
  * Core of Crouse (2016) Algorithm 1 on a row-major nr x nc Float64Array with
  * nr <= nc, after Jonker & Volgenant's (1987) initialisation when square.
- * Returns the column of each row, or null when infeasible.
+ * `v` (length nc) becomes the column duals; `argMin` (length nc) is scratch,
+ * holding on entry the column minima and their rows when `columnMinimaKnown`
+ * (square matrices only; see columnMinima). Returns the column of each row,
+ * or null when infeasible.
  *
  * Invariant entering the shortest-path phase (what makes Crouse's dual update
  * valid): c[i][j] - u[i] - v[j] >= 0 for every pair and = 0 on every assigned
@@ -177,194 +272,375 @@ export function assignWithAbstention(
  * reduction transfer and the augmenting row reductions only lower v on a
  * row's least-reduced-cost column, so each assigned row stays on a column of
  * least c[i][j] - v[j], and u[i] is then set to that least value.
+ *
+ * The phases are separate functions taking their arrays as arguments (no
+ * state object): V8 then optimises each early and keeps it optimised.
  */
-function lapRectangular(c: Float64Array, nr: number, nc: number, allFinite: boolean): Int32Array | null {
+function lapRectangular(
+  c: Float64Array,
+  nr: number,
+  nc: number,
+  allFinite: boolean,
+  v: Float64Array,
+  argMin: Int32Array,
+  columnMinimaKnown: boolean,
+): Int32Array | null {
   const u = new Float64Array(nr);
-  const v = new Float64Array(nc);
-  const shortest = new Float64Array(nc);
-  const path = new Int32Array(nc).fill(-1);
   const col4row = new Int32Array(nr).fill(-1);
   const row4col = new Int32Array(nc).fill(-1);
-  const visitedRows = new Int32Array(nr);
-  const visitedCols = new Int32Array(nc);
-  const remaining = new Int32Array(nc);
   const free = new Int32Array(nr);
   let numFree = 0;
-
   if (nr === nc) {
-    const n = nr;
-    // Column reduction (Jonker & Volgenant 1987, Sec. 4.1): v[j] = min_i c[i][j];
-    // a column's minimum row takes it when still free, or when the column it
-    // holds has a larger minimum. In the rectangular case unassigned columns must
-    // keep v[j] = 0, so all of the initialisation is for square matrices only.
-    const matches = new Int32Array(n);
-    for (let j = n - 1; j >= 0; j--) {
-      let best = Infinity;
-      let arg = -1;
-      for (let r = 0, k = j; r < n; r++, k += n) {
-        const value = c[k];
-        if (value < best) {
-          best = value;
-          arg = r;
-        }
-      }
-      if (arg < 0) return null; // a column with only forbidden entries: no complete matching
-      v[j] = best;
-      if (++matches[arg] === 1) {
-        col4row[arg] = j;
-        row4col[j] = arg;
-      } else if (best < v[col4row[arg]]) {
-        const j1 = col4row[arg];
-        row4col[j1] = -1;
-        col4row[arg] = j;
-        row4col[j] = arg;
-      }
-    }
+    if (!columnMinimaKnown) columnMinima(c, nc, v, argMin);
+    const matches = new Int32Array(nr);
+    if (!takeColumnMinima(nc, v, argMin, col4row, row4col, matches)) return null; // a column with only forbidden entries
     if (allFinite) {
-      // Reduction transfer (Sec. 4.1): a row holding exactly one column passes
-      // its slack to it: v[j1] -= min_{j != j1} (c[i][j] - v[j]) (>= 0).
-      for (let i = 0; i < n; i++) {
-        if (matches[i] === 0) free[numFree++] = i;
-        else if (matches[i] === 1) {
-          const j1 = col4row[i];
-          const base = i * n;
-          let least = Infinity;
-          for (let j = 0; j < n; j++) {
-            if (j === j1) continue;
-            const h = c[base + j] - v[j];
-            if (h < least) least = h;
-          }
-          v[j1] -= least;
-        }
-      }
-      // Augmenting row reduction (Sec. 4.2), two rounds: each free row takes
-      // its column of least reduced cost, lowering that column's v to tie with
-      // its second least, and the row it displaces becomes free in turn.
-      // Work cap (this implementation's choice): 2n row scans. Unbounded rounds
-      // converge like an auction with tiny bids; on 1000 x 1000 uniform costs they
-      // took up to 80n scans and saved nothing over leaving the last free rows to
-      // the shortest-path phase, whose total work was least near this cap.
-      let budget = 2 * n;
-      for (let round = 0; round < 2 && numFree > 0; round++) {
-        let k = 0;
-        const previousFree = numFree;
-        numFree = 0;
-        while (k < previousFree) {
-          if (--budget < 0) {
-            while (k < previousFree) free[numFree++] = free[k++];
-            break;
-          }
-          const i = free[k++];
-          const base = i * n;
-          let uMin = c[base] - v[0];
-          let j1 = 0;
-          let j2 = -1;
-          let uSubMin = Infinity;
-          for (let j = 1; j < n; j++) {
-            const h = c[base + j] - v[j];
-            if (h < uSubMin) {
-              if (h >= uMin) {
-                uSubMin = h;
-                j2 = j;
-              } else {
-                uSubMin = uMin;
-                uMin = h;
-                j2 = j1;
-                j1 = j;
-              }
-            }
-          }
-          let i0 = row4col[j1];
-          const strict = uMin < uSubMin;
-          if (strict) v[j1] -= uSubMin - uMin;
-          else if (i0 >= 0 && j2 >= 0) {
-            // A tie: take the second column instead, so as not to displace a row for nothing.
-            j1 = j2;
-            i0 = row4col[j2];
-          }
-          if (i0 >= 0) col4row[i0] = -1;
-          col4row[i] = j1;
-          row4col[j1] = i;
-          if (i0 >= 0) {
-            if (strict) free[--k] = i0; // reassign the displaced row at once
-            else free[numFree++] = i0;
-          }
-        }
-      }
-      // Row duals: each assigned row's reduced cost is least on its column.
-      for (let i = 0; i < n; i++) {
-        const j = col4row[i];
-        if (j >= 0) u[i] = c[i * n + j] - v[j];
-      }
+      numFree = reductionTransfer(c, nc, v, col4row, matches, free);
+      numFree = augmentingRowReduction(c, nc, v, col4row, row4col, free, numFree);
+      rowDuals(c, nc, u, v, col4row);
     } else {
-      for (let i = 0; i < n; i++) if (col4row[i] === -1) free[numFree++] = i;
+      for (let i = 0; i < nr; i++) if (col4row[i] === -1) free[numFree++] = i;
     }
   } else {
     for (let i = 0; i < nr; i++) free[numFree++] = i;
   }
-
+  if (numFree === 0) return col4row;
+  const shortest = new Float64Array(nc);
+  const path = argMin; // every search sets path[j] for all columns in its first step
+  const remaining = new Int32Array(nc);
+  const visitedRows = new Int32Array(nr);
+  const visitedCols = new Int32Array(nc);
   for (let f = 0; f < numFree; f++) {
     const curRow = free[f];
-    // Dijkstra from curRow over reduced costs until an unassigned column (the sink) is reached.
-    let minVal = 0;
-    let numRemaining = nc;
-    for (let it = 0; it < nc; it++) remaining[it] = nc - it - 1;
-    shortest.fill(Infinity);
-    let nVisitedRows = 0;
-    let nVisitedCols = 0;
-    let sink = -1;
-    let i = curRow;
-    while (sink === -1) {
-      let index = -1;
-      let lowest = Infinity;
-      visitedRows[nVisitedRows++] = i;
-      const base = i * nc;
-      const offset = minVal - u[i];
-      for (let it = 0; it < numRemaining; it++) {
-        const j = remaining[it];
-        const r = offset + c[base + j] - v[j];
-        let sj = shortest[j];
-        if (r < sj) {
-          path[j] = i;
-          shortest[j] = r;
-          sj = r;
-        }
-        // Among equal minima prefer an unassigned column: it ends the search (Crouse 2016, Sec. IV).
-        if (sj < lowest || (sj === lowest && row4col[j] === -1)) {
-          lowest = sj;
-          index = it;
-        }
-      }
-      minVal = lowest;
-      if (minVal === Infinity) return null;
-      const j = remaining[index];
-      if (row4col[j] === -1) sink = j;
-      else i = row4col[j];
-      visitedCols[nVisitedCols++] = j;
-      remaining[index] = remaining[--numRemaining];
-    }
-
-    // Dual update (keeps reduced costs non-negative and tight along the matching).
-    u[curRow] += minVal;
-    for (let k = 1; k < nVisitedRows; k++) {
-      const r = visitedRows[k];
-      u[r] += minVal - shortest[col4row[r]];
-    }
-    for (let k = 0; k < nVisitedCols; k++) {
-      const j = visitedCols[k];
-      v[j] -= minVal - shortest[j];
-    }
-
-    // Augment along the path back to curRow.
-    let j = sink;
-    for (;;) {
-      const r = path[j];
-      row4col[j] = r;
-      const previous = col4row[r];
-      col4row[r] = j;
-      j = previous;
-      if (r === curRow) break;
+    const first = firstStep(c, nc, u, v, shortest, path, row4col, curRow);
+    if (first < 0) return null;
+    if (row4col[first] === -1) {
+      // The search ends at once: u[curRow] += shortest[first]; the column's v
+      // changes by minVal - shortest[first] = 0; the path is the single pair.
+      u[curRow] += shortest[first];
+      row4col[first] = curRow;
+      col4row[curRow] = first;
+    } else if (!continueSearch(c, nc, u, v, shortest, path, col4row, row4col, remaining, visitedRows, visitedCols, curRow, first)) {
+      return null;
     }
   }
   return col4row;
+}
+
+/**
+ * v[j] = min_i c[i][j] and argMin[j] = the lowest such row (-1 when the
+ * column is all +Infinity), row by row for sequential memory access (strict <
+ * keeps the lowest row on ties).
+ */
+function columnMinima(c: Float64Array, n: number, v: Float64Array, argMin: Int32Array): void {
+  v.fill(Infinity);
+  argMin.fill(-1);
+  for (let r = 0, k = 0; r < n; r++) {
+    for (let j = 0; j < n; j++, k++) {
+      const value = c[k];
+      if (value < v[j]) {
+        v[j] = value;
+        argMin[j] = r;
+      }
+    }
+  }
+}
+
+/**
+ * Column reduction (Jonker & Volgenant 1987, Sec. 4.1), given the column
+ * minima v[j] = min_i c[i][j] and their lowest rows argMin[j]: going through
+ * the columns from the last to the first, a column's minimum row takes it
+ * when still free, or when the column it holds has a larger minimum. In the
+ * rectangular case unassigned columns must keep v[j] = 0, so all of the
+ * initialisation is for square matrices only. Counts in `matches` the columns
+ * of which each row is the minimum. Returns false when some column has only
+ * forbidden entries.
+ */
+function takeColumnMinima(
+  n: number,
+  v: Float64Array,
+  argMin: Int32Array,
+  col4row: Int32Array,
+  row4col: Int32Array,
+  matches: Int32Array,
+): boolean {
+  for (let j = n - 1; j >= 0; j--) {
+    const arg = argMin[j];
+    if (arg < 0) return false;
+    if (++matches[arg] === 1) {
+      col4row[arg] = j;
+      row4col[j] = arg;
+    } else if (v[j] < v[col4row[arg]]) {
+      const j1 = col4row[arg];
+      row4col[j1] = -1;
+      col4row[arg] = j;
+      row4col[j] = arg;
+    }
+  }
+  return true;
+}
+
+/**
+ * Reduction transfer (Jonker & Volgenant 1987, Sec. 4.1): a row holding
+ * exactly one column passes its slack to it,
+ * v[j1] -= min_{j != j1} (c[i][j] - v[j]) (>= 0). Rows holding no column are
+ * listed in `free`; returns their number.
+ */
+function reductionTransfer(
+  c: Float64Array,
+  n: number,
+  v: Float64Array,
+  col4row: Int32Array,
+  matches: Int32Array,
+  free: Int32Array,
+): number {
+  let numFree = 0;
+  for (let i = 0; i < n; i++) {
+    if (matches[i] === 0) free[numFree++] = i;
+    else if (matches[i] === 1) {
+      const j1 = col4row[i];
+      const base = i * n;
+      let least = Infinity;
+      for (let j = 0; j < n; j++) {
+        if (j === j1) continue;
+        const h = c[base + j] - v[j];
+        if (h < least) least = h;
+      }
+      v[j1] -= least;
+    }
+  }
+  return numFree;
+}
+
+/**
+ * Augmenting row reduction (Jonker & Volgenant 1987, Sec. 4.2), two rounds:
+ * each free row takes its column of least reduced cost, lowering that
+ * column's v to tie with its second least, and the row it displaces becomes
+ * free in turn. Work cap (this implementation's choice): 2n row scans.
+ * Unbounded rounds converge like an auction with tiny bids; on 1000 x 1000
+ * uniform costs they took up to 80n scans and saved nothing over leaving the
+ * last free rows to the shortest-path phase, whose total work was least near
+ * this cap. Returns the number of rows left in `free`.
+ */
+function augmentingRowReduction(
+  c: Float64Array,
+  n: number,
+  v: Float64Array,
+  col4row: Int32Array,
+  row4col: Int32Array,
+  free: Int32Array,
+  numFree: number,
+): number {
+  let budget = 2 * n;
+  for (let round = 0; round < 2 && numFree > 0; round++) {
+    let k = 0;
+    const previousFree = numFree;
+    numFree = 0;
+    while (k < previousFree) {
+      if (--budget < 0) {
+        while (k < previousFree) free[numFree++] = free[k++];
+        break;
+      }
+      const i0 = reduceRow(c, n, v, col4row, row4col, free[k++]);
+      if (i0 >= 0) {
+        if (i0 < n) free[--k] = i0; // strict: reassign the displaced row at once
+        else free[numFree++] = i0 - n;
+      }
+    }
+  }
+  return numFree;
+}
+
+/**
+ * One augmenting row reduction step for free row i (see augmentingRowReduction).
+ * Returns the displaced row: i0 when the least reduced cost was strictly
+ * least (to be reassigned at once), i0 + n on a tie (to be listed as free),
+ * or -1 when no row was displaced.
+ */
+function reduceRow(c: Float64Array, n: number, v: Float64Array, col4row: Int32Array, row4col: Int32Array, i: number): number {
+  const base = i * n;
+  let uMin = c[base] - v[0];
+  let j1 = 0;
+  let j2 = -1;
+  let uSubMin = Infinity;
+  for (let j = 1; j < n; j++) {
+    const h = c[base + j] - v[j];
+    if (h < uSubMin) {
+      if (h >= uMin) {
+        uSubMin = h;
+        j2 = j;
+      } else {
+        uSubMin = uMin;
+        uMin = h;
+        j2 = j1;
+        j1 = j;
+      }
+    }
+  }
+  let i0 = row4col[j1];
+  const strict = uMin < uSubMin;
+  if (strict) v[j1] -= uSubMin - uMin;
+  else if (i0 >= 0 && j2 >= 0) {
+    // A tie: take the second column instead, so as not to displace a row for nothing.
+    j1 = j2;
+    i0 = row4col[j2];
+  }
+  if (i0 >= 0) col4row[i0] = -1;
+  col4row[i] = j1;
+  row4col[j1] = i;
+  if (i0 < 0) return -1;
+  return strict ? i0 : i0 + n;
+}
+
+/** Row duals after the initialisation: each assigned row's reduced cost is least on its column. */
+function rowDuals(c: Float64Array, n: number, u: Float64Array, v: Float64Array, col4row: Int32Array): void {
+  for (let i = 0; i < n; i++) {
+    const j = col4row[i];
+    if (j >= 0) u[i] = c[i * n + j] - v[j];
+  }
+}
+
+/**
+ * First step of the Dijkstra search from free row curRow (Crouse 2016,
+ * Algorithm 1, at minVal = 0): every column's distance is its reduced cost,
+ * shortest[j] = c[curRow][j] - u[curRow] - v[j], reached from curRow. Columns
+ * are taken in the order nc - 1, ..., 0 (the initial order of the list of
+ * unscanned columns); among equal minima an unassigned column is preferred (it
+ * ends the search, Crouse 2016, Sec. IV). Returns the closest column, or -1
+ * when every column is at +Infinity (infeasible).
+ */
+function firstStep(
+  c: Float64Array,
+  nc: number,
+  u: Float64Array,
+  v: Float64Array,
+  shortest: Float64Array,
+  path: Int32Array,
+  row4col: Int32Array,
+  curRow: number,
+): number {
+  const base = curRow * nc;
+  const offset = 0 - u[curRow];
+  let lowest = Infinity;
+  let first = -1;
+  for (let j = nc - 1; j >= 0; j--) {
+    const r = offset + c[base + j] - v[j];
+    shortest[j] = r;
+    path[j] = curRow;
+    if (r < lowest || (r === lowest && row4col[j] === -1)) {
+      lowest = r;
+      first = j;
+    }
+  }
+  return lowest === Infinity ? -1 : first;
+}
+
+/**
+ * The rest of the search from curRow (Crouse 2016, Algorithm 1) after a
+ * first step that reached the assigned column `first`: Dijkstra steps until
+ * an unassigned column (the sink) is reached, the dual update of Sec. IV and
+ * the augmentation along the path. Returns false when every remaining column
+ * is at distance +Infinity (infeasible).
+ */
+function continueSearch(
+  c: Float64Array,
+  nc: number,
+  u: Float64Array,
+  v: Float64Array,
+  shortest: Float64Array,
+  path: Int32Array,
+  col4row: Int32Array,
+  row4col: Int32Array,
+  remaining: Int32Array,
+  visitedRows: Int32Array,
+  visitedCols: Int32Array,
+  curRow: number,
+  first: number,
+): boolean {
+  // Unscanned columns in the order the first step left them: nc - 1, ..., 0
+  // with the column taken replaced by the last one.
+  for (let it = 0; it < nc; it++) remaining[it] = nc - it - 1;
+  remaining[nc - 1 - first] = remaining[nc - 1];
+  let numRemaining = nc - 1;
+  visitedRows[0] = curRow;
+  visitedCols[0] = first;
+  let nVisitedRows = 1;
+  let nVisitedCols = 1;
+  let minVal = shortest[first];
+  let i = row4col[first];
+  let sink = -1;
+  while (sink === -1) {
+    visitedRows[nVisitedRows++] = i;
+    const index = scanRow(c, nc, u, v, shortest, path, row4col, remaining, i, minVal, numRemaining);
+    const j = index >= 0 ? remaining[index] : -1;
+    minVal = j >= 0 ? shortest[j] : Infinity;
+    if (minVal === Infinity) return false;
+    if (row4col[j] === -1) sink = j;
+    else i = row4col[j];
+    visitedCols[nVisitedCols++] = j;
+    remaining[index] = remaining[--numRemaining];
+  }
+
+  // Dual update (keeps reduced costs non-negative and tight along the matching).
+  u[curRow] += minVal;
+  for (let k = 1; k < nVisitedRows; k++) {
+    const r = visitedRows[k];
+    u[r] += minVal - shortest[col4row[r]];
+  }
+  for (let k = 0; k < nVisitedCols; k++) {
+    const j = visitedCols[k];
+    v[j] -= minVal - shortest[j];
+  }
+
+  // Augment along the path back to curRow.
+  let j = sink;
+  for (;;) {
+    const r = path[j];
+    row4col[j] = r;
+    const previous = col4row[r];
+    col4row[r] = j;
+    j = previous;
+    if (r === curRow) break;
+  }
+  return true;
+}
+
+/**
+ * One Dijkstra step from row i at distance minVal: relaxes every unscanned
+ * column, shortest[j] = min(shortest[j], minVal + c[i][j] - u[i] - v[j]), and
+ * returns the position in `remaining` of the closest one (an unassigned
+ * column on ties), or -1 when all are at +Infinity and none is unassigned.
+ */
+function scanRow(
+  c: Float64Array,
+  nc: number,
+  u: Float64Array,
+  v: Float64Array,
+  shortest: Float64Array,
+  path: Int32Array,
+  row4col: Int32Array,
+  remaining: Int32Array,
+  i: number,
+  minVal: number,
+  numRemaining: number,
+): number {
+  const base = i * nc;
+  const offset = minVal - u[i];
+  let lowest = Infinity;
+  let index = -1;
+  for (let it = 0; it < numRemaining; it++) {
+    const j = remaining[it];
+    const r = offset + c[base + j] - v[j];
+    let sj = shortest[j];
+    if (r < sj) {
+      path[j] = i;
+      shortest[j] = r;
+      sj = r;
+    }
+    if (sj < lowest || (sj === lowest && row4col[j] === -1)) {
+      lowest = sj;
+      index = it;
+    }
+  }
+  return index;
 }
