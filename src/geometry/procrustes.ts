@@ -25,8 +25,8 @@ import {
   multiply,
   multiplyVector,
   svd,
-  symmetricEigen,
 } from './linear-algebra.js';
+import { symmetricEigenvaluesSmall } from './small-decompositions.js';
 
 export type TransformKind = Transform['kind'];
 
@@ -131,12 +131,17 @@ function checkInputs(name: string, source: Points, target: Points, options: FitO
  * Rank of the weighted source scatter: the number of eigenvalues above
  * tolerance * largest eigenvalue.
  */
-function spreadRank(scatter: number[][], tolerance: number): { rank: number; values: number[] } {
-  const { values } = symmetricEigen(scatter);
+function spreadRank(scatter: number[][], tolerance: number): { rank: number } {
+  // The eigenvalues symmetricEigen gives (d <= 3 here), without its eigenvectors.
+  const values = EIGENVALUES;
+  symmetricEigenvaluesSmall(scatter, values);
   const top = values[0];
-  if (!(top > 0)) return { rank: 0, values };
-  return { rank: values.filter((v) => v > tolerance * top).length, values };
+  if (!(top > 0)) return { rank: 0 };
+  let rank = 0;
+  for (let i = 0; i < scatter.length; i++) if (values[i] > tolerance * top) rank++;
+  return { rank };
 }
+const EIGENVALUES = new Float64Array(3);
 
 function describeRankDeficiency(d: number, rank: number, which = 'points'): string {
   if (rank === 0) return `all ${which} coincide`;
@@ -169,7 +174,8 @@ function fitOrthogonal(kind: 'similarity' | 'rigid', source: Points, target: Poi
   // full-rank source is not enough when the target points coincide or lie on a line (3-D).
   let sigmaY2 = 0;
   for (let i = 0; i < d; i++) sigmaY2 += m[SYY + i];
-  const crossRank = s[0] > tol * Math.sqrt(sigmaX2 * sigmaY2) ? s.filter((val) => val > tol * s[0]).length : 0;
+  let crossRank = 0;
+  if (s[0] > tol * Math.sqrt(sigmaX2 * sigmaY2)) for (let i = 0; i < d; i++) if (s[i] > tol * s[0]) crossRank++;
   if (crossRank < Math.max(1, d - 1)) {
     // Error path only: the full target scatter, for the reason given.
     const syy = crossCovariance(target, my, target, my, w);

@@ -39,17 +39,16 @@ function orderDescending(key: Float64Array, d: number, order: Int32Array): void 
   }
 }
 
-/** Eigen-decomposition of a symmetric d x d matrix (d <= 3 intended): values descending, vectors as columns. */
-export function symmetricEigenSmall(a: Matrix): { values: number[]; vectors: number[][] } {
-  const d = a.length;
-  const small = d <= 3;
-  // m = (A + A^T) / 2 and v = I, row-major with stride d.
-  const m = small ? WORK_M : new Float64Array(d * d);
-  const v = small ? WORK_V : new Float64Array(d * d);
+/**
+ * Cyclic Jacobi on m = (A + A^T) / 2 (row-major, stride d, overwritten: its diagonal
+ * ends as the eigenvalues), accumulating the rotations into v = I when v is given.
+ * The rotations depend on m only, so the eigenvalues are the same with or without v.
+ */
+function jacobiInPlace(a: Matrix, d: number, m: Float64Array, v: Float64Array | null): void {
   for (let i = 0; i < d; i++)
     for (let j = 0; j < d; j++) {
       m[i * d + j] = 0.5 * (a[i][j] + a[j][i]);
-      v[i * d + j] = i === j ? 1 : 0;
+      if (v) v[i * d + j] = i === j ? 1 : 0;
     }
   for (let sweep = 0; sweep < MAX_SWEEPS; sweep++) {
     let off = 0, diag = 0;
@@ -76,13 +75,23 @@ export function symmetricEigenSmall(a: Matrix): { values: number[]; vectors: num
           m[p * d + k] = c * mpk - s * mqk;
           m[q * d + k] = s * mpk + c * mqk;
         }
-        for (let k = 0; k < d; k++) {
-          const vkp = v[k * d + p], vkq = v[k * d + q];
-          v[k * d + p] = c * vkp - s * vkq;
-          v[k * d + q] = s * vkp + c * vkq;
-        }
+        if (v)
+          for (let k = 0; k < d; k++) {
+            const vkp = v[k * d + p], vkq = v[k * d + q];
+            v[k * d + p] = c * vkp - s * vkq;
+            v[k * d + q] = s * vkp + c * vkq;
+          }
       }
   }
+}
+
+/** Eigen-decomposition of a symmetric d x d matrix (d <= 3 intended): values descending, vectors as columns. */
+export function symmetricEigenSmall(a: Matrix): { values: number[]; vectors: number[][] } {
+  const d = a.length;
+  const small = d <= 3;
+  const m = small ? WORK_M : new Float64Array(d * d);
+  const v = small ? WORK_V : new Float64Array(d * d);
+  jacobiInPlace(a, d, m, v);
   const diagonal = small ? WORK_D : new Float64Array(d);
   const order = small ? WORK_ORDER : new Int32Array(d);
   for (let i = 0; i < d; i++) diagonal[i] = m[i * d + i];
@@ -96,6 +105,22 @@ export function symmetricEigenSmall(a: Matrix): { values: number[]; vectors: num
     vectors.push(row);
   }
   return { values, vectors };
+}
+
+/**
+ * The eigenvalues of symmetricEigenSmall(a), descending, without the eigenvectors
+ * (the same rotations, so the same values to the bit); written into `out` (length >= d).
+ */
+export function symmetricEigenvaluesSmall(a: Matrix, out: Float64Array): void {
+  const d = a.length;
+  const small = d <= 3;
+  const m = small ? WORK_M : new Float64Array(d * d);
+  jacobiInPlace(a, d, m, null);
+  const diagonal = small ? WORK_D : new Float64Array(d);
+  const order = small ? WORK_ORDER : new Int32Array(d);
+  for (let i = 0; i < d; i++) diagonal[i] = m[i * d + i];
+  orderDescending(diagonal, d, order);
+  for (let c = 0; c < d; c++) out[c] = diagonal[order[c]];
 }
 
 /**
@@ -158,7 +183,9 @@ export function svdSmall(a: Matrix): { u: number[][]; s: number[]; v: number[][]
     const vrow = new Array<number>(d);
     for (let c = 0; c < d; c++) vrow[c] = v[k * d + order[c]];
     vs.push(vrow);
-    u.push(new Array<number>(d).fill(0));
+    const urow = new Array<number>(d);
+    for (let c = 0; c < d; c++) urow[c] = 0;
+    u.push(urow);
   }
   const tiny = (s[0] || 1) * 1e-13;
   let good = 0;

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { EigenvalueDecomposition, Matrix as MlMatrix, SingularValueDecomposition } from 'ml-matrix';
-import { svdSmall, symmetricEigenSmall } from '../../src/geometry/small-decompositions.js';
+import { svdSmall, symmetricEigenSmall, symmetricEigenvaluesSmall } from '../../src/geometry/small-decompositions.js';
 
 // Entries on a 1e-3 grid: avoids subnormal numbers, which say nothing about the 3x3 fits these serve.
 const entry = fc.integer({ min: -10000, max: 10000 }).map((k) => k / 1000);
@@ -78,4 +78,21 @@ describe('symmetricEigenSmall (cyclic Jacobi)', () => {
       { seed: 20261202, numRuns: 200 },
     );
   });
+});
+
+describe('symmetricEigenvaluesSmall (the same Jacobi rotations, values only)', () => {
+  for (const d of [1, 2, 3]) {
+    it(`returns exactly the eigenvalues of symmetricEigenSmall for random and rank-deficient ${d}x${d} matrices`, () => {
+      fc.assert(
+        fc.property(square(d), fc.boolean(), (b, deficient) => {
+          // Symmetric, or the rank-1 matrix x x^T of the first row.
+          const a = deficient ? b.map((_, i) => b.map((__, j) => b[0][i] * b[0][j])) : b.map((row, i) => row.map((x, j) => 0.5 * (x + b[j][i])));
+          const out = new Float64Array(3);
+          symmetricEigenvaluesSmall(a, out);
+          expect(Array.from(out.subarray(0, d))).toEqual(symmetricEigenSmall(a).values);
+        }),
+        { seed: 20261203, numRuns: 100 },
+      );
+    });
+  }
 });
