@@ -220,6 +220,20 @@ describe('solveAssignment', () => {
     expect(t.rowToColumn).toEqual(a.columnToRow);
   });
 
+  it('gives the same result whatever was solved before (storage kept between calls carries nothing over)', () => {
+    const rng = createRng(29);
+    const matrix = (n: number, m: number, forbidden: number): number[][] =>
+      Array.from({ length: n }, () => Array.from({ length: m }, () => (rng() < forbidden ? Infinity : Math.floor(rng() * 20) / 4)));
+    const problems = [matrix(40, 40, 0), matrix(12, 30, 0.3), matrix(30, 12, 0.3), matrix(25, 25, 0.2), matrix(3, 3, 0), matrix(40, 40, 0)];
+    const abstain = problems.map((c) => c.map(() => 2 + rng()));
+    const alone = problems.map((c, k) => [JSON.stringify(solveAssignment(c)), JSON.stringify(assignWithAbstention(c, abstain[k]))]);
+    // Interleave: large, small, transposed, with abstention, in another order; each answer must be the one it gave alone.
+    for (const k of [5, 4, 1, 3, 0, 2, 4, 5]) {
+      expect(JSON.stringify(assignWithAbstention(problems[k], abstain[k]))).toBe(alone[k][1]);
+      expect(JSON.stringify(solveAssignment(problems[k]))).toBe(alone[k][0]);
+    }
+  });
+
   it('returns empty matchings for empty matrices', () => {
     expect(solveAssignment([])).toEqual({ rowToColumn: [], columnToRow: [], total: 0 });
     expect(solveAssignment([[], []])).toEqual({ rowToColumn: [-1, -1], columnToRow: [], total: 0 });
