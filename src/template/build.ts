@@ -7,7 +7,7 @@
 import type { FlaggedLabel, Sample, Template, TemplateCell, TemplateMember, TemplateSettings } from '../types.js';
 import { TEMPLATE_FORMAT, TEMPLATE_VERSION } from '../types.js';
 import { VERSION } from '../version.js';
-import { addObservationInPlace, cellsFromSums, emptySums, type CellSums } from './cell-statistics.js';
+import { cellsFromSums, emptySums, type CellSums } from './cell-statistics.js';
 import { coRegister, type CoRegistration, type IterationDiagnostics, type LabelledEntry, type SkippedSample } from './co-register.js';
 import { likelierCellFinder } from './likelier-cell.js';
 import { sampleHash } from './sample-hash.js';
@@ -47,6 +47,17 @@ export function entryFromMember(member: TemplateMember, dim: Template['dim']): L
   };
 }
 
+/** addObservationInPlace (cell-statistics.ts) for the point at y[offset .. offset + dim): the same sums in the same order. */
+function addFlatObservation(sums: CellSums, y: Float64Array, offset: number, dim: number): void {
+  sums.n += 1;
+  for (let a = 0; a < dim; a++) {
+    const ya = y[offset + a];
+    sums.sum[a] += ya;
+    const row = sums.sumOfSquares[a];
+    for (let b = 0; b < dim; b++) row[b] += ya * y[offset + b];
+  }
+}
+
 export interface RegistrationSummary {
   readonly registration: CoRegistration;
   readonly cells: TemplateCell[];
@@ -71,7 +82,7 @@ export function registerAndSummarise(entries: readonly LabelledEntry[], settings
   // reproducible from the stored transforms.
   const aligned = reg.aligned;
   reg.entries.forEach((e, i) => {
-    for (let j = 0; j < e.labels.length; j++) if (reg.kept[i][j]) addObservationInPlace(sums[reg.cellOf[i][j]], aligned[i][j]);
+    for (let j = 0; j < e.labels.length; j++) if (reg.kept[i][j]) addFlatObservation(sums[reg.cellOf[i][j]], aligned[i], j * dim, dim);
   });
   const { cells, pooled } = cellsFromSums(
     reg.cells.map((label, c) => ({ label, sums: sums[c] })),
@@ -92,9 +103,9 @@ export function registerAndSummarise(entries: readonly LabelledEntry[], settings
     for (let j = 0; j < e.labels.length; j++) {
       const cell = cellAt[cellRow[j]];
       if (keptRow[j] && cell) {
-        const y = alignedRow[j], m = cell.mean;
+        const m = cell.mean;
         for (let a = 0; a < dim; a++) {
-          const e = y[a] - m[a];
+          const e = alignedRow[j * dim + a] - m[a];
           res += e * e;
         }
         used++;
@@ -106,7 +117,7 @@ export function registerAndSummarise(entries: readonly LabelledEntry[], settings
             row: e.rows[j],
             label: e.labels[j],
             distance: reg.distance[i][j],
-            ...likelier(alignedRow[j], e.labels[j]),
+            ...likelier(Array.from(alignedRow.subarray(j * dim, (j + 1) * dim)), e.labels[j]),
           },
         });
       }

@@ -118,8 +118,11 @@ export interface CoRegistration {
   readonly transforms: readonly Transform[];
   /** Per member, per point: index into `cells`. */
   readonly cellOf: readonly (readonly number[])[];
-  /** Per member, per point: aligned position, applyTransform(transforms[i], coords). */
-  readonly aligned: readonly (readonly (readonly number[])[])[];
+  /**
+   * Per member: aligned positions, applyTransform(transforms[i], coords) (the same sums in the
+   * same order), row-major: point j, axis a at j * dim + a.
+   */
+  readonly aligned: readonly Float64Array[];
   /** Per member, per point: kept by the robust step (false = flagged). */
   readonly kept: readonly (readonly boolean[])[];
   /** Per member, per point: leave-one-out Mahalanobis distance (not squared); NaN when not checked. */
@@ -264,7 +267,7 @@ export function coRegister(input: readonly LabelledEntry[], settings: TemplateSe
     entries,
     transforms,
     cellOf,
-    aligned: aligned.map((y) => nestedPoints(y, dim)),
+    aligned,
     kept: kept.map((row) => {
       const out = new Array<boolean>(row.length);
       for (let j = 0; j < row.length; j++) out[j] = row[j] === 1;
@@ -301,17 +304,6 @@ function addMemberResiduals(y: Float64Array, cells: Int32Array, kept: Uint8Array
 function flatPoints(points: Points, dim: number): Float64Array {
   const out = new Float64Array(points.length * dim);
   for (let j = 0; j < points.length; j++) for (let a = 0; a < dim; a++) out[j * dim + a] = points[j][a];
-  return out;
-}
-
-/** A row-major Float64Array of points as n x d nested arrays. */
-function nestedPoints(flat: Float64Array, dim: number): number[][] {
-  const out: number[][] = [];
-  for (let j = 0; j < flat.length; j += dim) {
-    const row = new Array<number>(dim);
-    for (let a = 0; a < dim; a++) row[a] = flat[j + a];
-    out.push(row);
-  }
   return out;
 }
 
