@@ -367,14 +367,14 @@ function greedyByBands(
     let s = 0;
     for (let x = lo; x < hi; x++) {
       const j = order[x];
-      if (cellOfPoint[rowOf[j]] < 0 && usedCell[cellOf[j]] === 0) free[s++] = j;
+      if (cellOfPoint[rowOf[j]] < 0 && !usedCell[cellOf[j]]) free[s++] = j;
     }
     lo = hi;
     if (s > 1) sortByGainDescending(free, s, gains);
     for (let x = 0; x < s; x++) {
       const j = free[x];
       const i = rowOf[j], k = cellOf[j];
-      if (cellOfPoint[i] >= 0 || usedCell[k] !== 0) continue;
+      if (cellOfPoint[i] >= 0 || usedCell[k]) continue;
       cellOfPoint[i] = k;
       usedCell[k] = 1;
       total += gains[j];
