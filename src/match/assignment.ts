@@ -274,7 +274,8 @@ function copySquareCostsWithColumnMinima(
  * least c[i][j] - v[j], and u[i] is then set to that least value.
  *
  * The phases are separate functions taking their arrays as arguments (no
- * state object): V8 then optimises each early and keeps it optimised.
+ * state object), each holding its own hot loop: V8 then optimises each
+ * within the first calls and keeps it optimised.
  */
 function lapRectangular(
   c: Float64Array,
@@ -416,11 +417,13 @@ function reductionTransfer(
  * Augmenting row reduction (Jonker & Volgenant 1987, Sec. 4.2), two rounds:
  * each free row takes its column of least reduced cost, lowering that
  * column's v to tie with its second least, and the row it displaces becomes
- * free in turn. Work cap (this implementation's choice): 2n row scans.
- * Unbounded rounds converge like an auction with tiny bids; on 1000 x 1000
- * uniform costs they took up to 80n scans and saved nothing over leaving the
- * last free rows to the shortest-path phase, whose total work was least near
- * this cap. Returns the number of rows left in `free`.
+ * free in turn (at once when the least was strictly least; listed for the
+ * next round on a tie, when the row takes its second column instead if that
+ * displaces no row for nothing). Work cap (this implementation's choice): 2n
+ * row scans. Unbounded rounds converge like an auction with tiny bids; on
+ * 1000 x 1000 uniform costs they took up to 80n scans and saved nothing over
+ * leaving the last free rows to the shortest-path phase, whose total work
+ * was least near this cap. Returns the number of rows left in `free`.
  */
 function augmentingRowReduction(
   c: Float64Array,
@@ -441,55 +444,45 @@ function augmentingRowReduction(
         while (k < previousFree) free[numFree++] = free[k++];
         break;
       }
-      const i0 = reduceRow(c, n, v, col4row, row4col, free[k++]);
+      const i = free[k++];
+      // Least and second least reduced cost of row i (u[i] = 0 here).
+      const base = i * n;
+      let uMin = c[base] - v[0];
+      let j1 = 0;
+      let j2 = -1;
+      let uSubMin = Infinity;
+      for (let j = 1; j < n; j++) {
+        const h = c[base + j] - v[j];
+        if (h < uSubMin) {
+          if (h >= uMin) {
+            uSubMin = h;
+            j2 = j;
+          } else {
+            uSubMin = uMin;
+            uMin = h;
+            j2 = j1;
+            j1 = j;
+          }
+        }
+      }
+      let i0 = row4col[j1];
+      const strict = uMin < uSubMin;
+      if (strict) v[j1] -= uSubMin - uMin;
+      else if (i0 >= 0 && j2 >= 0) {
+        // A tie: take the second column instead, so as not to displace a row for nothing.
+        j1 = j2;
+        i0 = row4col[j2];
+      }
+      if (i0 >= 0) col4row[i0] = -1;
+      col4row[i] = j1;
+      row4col[j1] = i;
       if (i0 >= 0) {
-        if (i0 < n) free[--k] = i0; // strict: reassign the displaced row at once
-        else free[numFree++] = i0 - n;
+        if (strict) free[--k] = i0; // reassign the displaced row at once
+        else free[numFree++] = i0;
       }
     }
   }
   return numFree;
-}
-
-/**
- * One augmenting row reduction step for free row i (see augmentingRowReduction).
- * Returns the displaced row: i0 when the least reduced cost was strictly
- * least (to be reassigned at once), i0 + n on a tie (to be listed as free),
- * or -1 when no row was displaced.
- */
-function reduceRow(c: Float64Array, n: number, v: Float64Array, col4row: Int32Array, row4col: Int32Array, i: number): number {
-  const base = i * n;
-  let uMin = c[base] - v[0];
-  let j1 = 0;
-  let j2 = -1;
-  let uSubMin = Infinity;
-  for (let j = 1; j < n; j++) {
-    const h = c[base + j] - v[j];
-    if (h < uSubMin) {
-      if (h >= uMin) {
-        uSubMin = h;
-        j2 = j;
-      } else {
-        uSubMin = uMin;
-        uMin = h;
-        j2 = j1;
-        j1 = j;
-      }
-    }
-  }
-  let i0 = row4col[j1];
-  const strict = uMin < uSubMin;
-  if (strict) v[j1] -= uSubMin - uMin;
-  else if (i0 >= 0 && j2 >= 0) {
-    // A tie: take the second column instead, so as not to displace a row for nothing.
-    j1 = j2;
-    i0 = row4col[j2];
-  }
-  if (i0 >= 0) col4row[i0] = -1;
-  col4row[i] = j1;
-  row4col[j1] = i;
-  if (i0 < 0) return -1;
-  return strict ? i0 : i0 + n;
 }
 
 /** Row duals after the initialisation: each assigned row's reduced cost is least on its column. */
@@ -571,10 +564,30 @@ function continueSearch(
   let sink = -1;
   while (sink === -1) {
     visitedRows[nVisitedRows++] = i;
-    const index = scanRow(c, nc, u, v, shortest, path, row4col, remaining, i, minVal, numRemaining);
-    const j = index >= 0 ? remaining[index] : -1;
-    minVal = j >= 0 ? shortest[j] : Infinity;
+    // Dijkstra step from row i at distance minVal: relax every unscanned column,
+    // shortest[j] = min(shortest[j], minVal + c[i][j] - u[i] - v[j]), and take the
+    // closest (an unassigned one on ties: it ends the search, Crouse 2016, Sec. IV).
+    const base = i * nc;
+    const offset = minVal - u[i];
+    let lowest = Infinity;
+    let index = -1;
+    for (let it = 0; it < numRemaining; it++) {
+      const jr = remaining[it];
+      const r = offset + c[base + jr] - v[jr];
+      let sj = shortest[jr];
+      if (r < sj) {
+        path[jr] = i;
+        shortest[jr] = r;
+        sj = r;
+      }
+      if (sj < lowest || (sj === lowest && row4col[jr] === -1)) {
+        lowest = sj;
+        index = it;
+      }
+    }
+    minVal = lowest;
     if (minVal === Infinity) return false;
+    const j = remaining[index];
     if (row4col[j] === -1) sink = j;
     else i = row4col[j];
     visitedCols[nVisitedCols++] = j;
@@ -603,44 +616,4 @@ function continueSearch(
     if (r === curRow) break;
   }
   return true;
-}
-
-/**
- * One Dijkstra step from row i at distance minVal: relaxes every unscanned
- * column, shortest[j] = min(shortest[j], minVal + c[i][j] - u[i] - v[j]), and
- * returns the position in `remaining` of the closest one (an unassigned
- * column on ties), or -1 when all are at +Infinity and none is unassigned.
- */
-function scanRow(
-  c: Float64Array,
-  nc: number,
-  u: Float64Array,
-  v: Float64Array,
-  shortest: Float64Array,
-  path: Int32Array,
-  row4col: Int32Array,
-  remaining: Int32Array,
-  i: number,
-  minVal: number,
-  numRemaining: number,
-): number {
-  const base = i * nc;
-  const offset = minVal - u[i];
-  let lowest = Infinity;
-  let index = -1;
-  for (let it = 0; it < numRemaining; it++) {
-    const j = remaining[it];
-    const r = offset + c[base + j] - v[j];
-    let sj = shortest[j];
-    if (r < sj) {
-      path[j] = i;
-      shortest[j] = r;
-      sj = r;
-    }
-    if (sj < lowest || (sj === lowest && row4col[j] === -1)) {
-      lowest = sj;
-      index = it;
-    }
-  }
-  return index;
 }
