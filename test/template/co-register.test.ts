@@ -47,6 +47,19 @@ describe('coRegister with complete labels equals ordinary generalised Procrustes
     });
   }
 
+  for (const name of ['gpa-2d', 'gpa-3d'] as const) {
+    it(`returns aligned positions (${name}, row-major per member) equal to the bit to applyTransform of the final maps`, () => {
+      const fx = readGpaFixture(name);
+      const samples = fx.configurations.map((c, i) => sampleFromConfiguration(`c${i + 1}`, c));
+      const reg = coRegister(samples.map(entryFromSample), resolveSettings({}));
+      reg.entries.forEach((e, i) => {
+        const expected = applyTransform(reg.transforms[i], e.coords).flat();
+        expect(reg.aligned[i].length).toBe(e.coords.length * reg.dim);
+        expect(Array.from(reg.aligned[i])).toEqual(expected);
+      });
+    });
+  }
+
   it('puts the centroid of the cell means at the origin with principal axes in decreasing order of variance', () => {
     const fx = readGpaFixture('gpa-3d');
     const reg = coRegister(fx.configurations.map((c, i) => entryFromSample(sampleFromConfiguration(`c${i}`, c))), ordinary);
