@@ -96,15 +96,32 @@ export function solveAssignment(cost: readonly (readonly number[])[], options: {
       `solveAssignment: the ${n} x ${m} cost matrix is infeasible: no assignment of ${nr} pairs avoids the forbidden (Infinity) entries`,
     );
   }
-  let total = 0;
+  const total = collectMatching(cost, col4row, nr, transpose, rowToColumn, columnToRow);
+  return { rowToColumn, columnToRow, total };
+}
+
+/**
+ * Fills rowToColumn / columnToRow from the solver's column of each row (of the
+ * oriented matrix) and returns the total cost, summed over the input's rows
+ * in order.
+ */
+function collectMatching(
+  cost: readonly (readonly number[])[],
+  col4row: Int32Array,
+  nr: number,
+  transpose: boolean,
+  rowToColumn: number[],
+  columnToRow: number[],
+): number {
   for (let r = 0; r < nr; r++) {
     const i = transpose ? col4row[r] : r;
     const j = transpose ? r : col4row[r];
     rowToColumn[i] = j;
     columnToRow[j] = i;
   }
-  for (let i = 0; i < n; i++) if (rowToColumn[i] >= 0) total += cost[i][rowToColumn[i]];
-  return { rowToColumn, columnToRow, total };
+  let total = 0;
+  for (let i = 0; i < cost.length; i++) if (rowToColumn[i] >= 0) total += cost[i][rowToColumn[i]];
+  return total;
 }
 
 /**
