@@ -515,7 +515,10 @@ export function fitMemberMap(
 function consensusOf(aligned: readonly Float64Array[], cellOf: readonly Int32Array[], kept: readonly Uint8Array[], k: number, dim: number): number[][] {
   const sum = new Float64Array(k * dim), all = new Float64Array(k * dim);
   const n = new Int32Array(k), nAll = new Int32Array(k);
-  for (let i = 0; i < aligned.length; i++) addMemberToConsensus(aligned[i], cellOf[i], kept[i], sum, all, n, nAll, dim);
+  for (let i = 0; i < aligned.length; i++) {
+    if (dim === 3) addMemberToConsensus3(aligned[i], cellOf[i], kept[i], sum, all, n, nAll);
+    else addMemberToConsensus(aligned[i], cellOf[i], kept[i], sum, all, n, nAll, dim);
+  }
   const out: number[][] = [];
   for (let c = 0; c < k; c++) {
     const row = new Array<number>(dim);
@@ -532,6 +535,25 @@ function addMemberToConsensus(y: Float64Array, cells: Int32Array, kept: Uint8Arr
     nAll[c]++;
     if (kept[j]) {
       for (let a = 0; a < dim; a++) sum[c * dim + a] += y[j * dim + a];
+      n[c]++;
+    }
+  }
+}
+
+/** addMemberToConsensus for d = 3, unrolled: the same sums in the same order. */
+function addMemberToConsensus3(y: Float64Array, cells: Int32Array, kept: Uint8Array, sum: Float64Array, all: Float64Array, n: Int32Array, nAll: Int32Array): void {
+  for (let j = 0; j < cells.length; j++) {
+    const c = cells[j];
+    const co = c * 3, yo = j * 3;
+    const y0 = y[yo], y1 = y[yo + 1], y2 = y[yo + 2];
+    all[co] += y0;
+    all[co + 1] += y1;
+    all[co + 2] += y2;
+    nAll[c]++;
+    if (kept[j]) {
+      sum[co] += y0;
+      sum[co + 1] += y1;
+      sum[co + 2] += y2;
       n[c]++;
     }
   }
@@ -633,7 +655,10 @@ function robustWeightsFlat(
   const mean = new Float64Array(k * dim);
   // Per-member helpers (small functions called once per member are optimised by the JIT
   // within the first build; one long loop in a function called 3 times per build is not).
-  for (let i = 0; i < aligned.length; i++) addMemberToMeans(aligned[i], cellOf[i], kept[i], n, mean, dim);
+  for (let i = 0; i < aligned.length; i++) {
+    if (dim === 3) addMemberToMeans3(aligned[i], cellOf[i], kept[i], n, mean);
+    else addMemberToMeans(aligned[i], cellOf[i], kept[i], n, mean, dim);
+  }
   for (let c = 0; c < k; c++) if (n[c] > 0) for (let a = 0; a < dim; a++) mean[c * dim + a] /= n[c];
   const scatter = new Float64Array(k * dd);
   for (let i = 0; i < aligned.length; i++) {
@@ -643,7 +668,11 @@ function robustWeightsFlat(
   const scatters: { n: number; scatter: number[][] }[] = [];
   for (let c = 0; c < k; c++) {
     const m: number[][] = [];
-    for (let a = 0; a < dim; a++) m.push(Array.from(scatter.subarray(c * dd + a * dim, c * dd + (a + 1) * dim)));
+    for (let a = 0; a < dim; a++) {
+      const row = new Array<number>(dim);
+      for (let b = 0; b < dim; b++) row[b] = scatter[c * dd + a * dim + b];
+      m.push(row);
+    }
     scatters.push({ n: n[c], scatter: m });
   }
   const pooled = pooledCovariance(scatters, dim);
@@ -741,6 +770,19 @@ function weighMember(
     rowKept[j] = d2 <= limit ? 1 : 0;
     rowDist[j] = Math.sqrt(d2);
   }
+}
+
+/** addMemberToMeans for d = 3, unrolled: the same sums in the same order. */
+function addMemberToMeans3(y: Float64Array, cells: Int32Array, kept: Uint8Array, n: Int32Array, mean: Float64Array): void {
+  for (let j = 0; j < cells.length; j++)
+    if (kept[j]) {
+      const c = cells[j];
+      n[c]++;
+      const mo = c * 3, yo = j * 3;
+      mean[mo] += y[yo];
+      mean[mo + 1] += y[yo + 1];
+      mean[mo + 2] += y[yo + 2];
+    }
 }
 
 /** addMemberToScatter for d = 3, unrolled: the same sums in the same order. */
