@@ -10,23 +10,13 @@
  * (the Gaussian approximation of the posterior predictive of a normal model
  * with known covariance and a flat prior on the mean: the spread of the
  * members plus the uncertainty of the mean; Gelman et al., Bayesian Data
- * Analysis, 3rd ed., section 3.5). Cells with n_k <= 0 are treated as n_k = 1.
+ * Analysis, 3rd ed., section 3.5); the template module's predictiveCovariance
+ * computes S_k. Cells with n_k <= 0 are treated as n_k = 1.
  */
 import { FitError } from '../errors.js';
 import { cholesky, precisionMatrix, symmetricEigen } from '../geometry/index.js';
-import type { Matrix, Template } from '../types.js';
-
-/**
- * Predictive covariance (1 + 1/n) Sigma of a cell's position in a new animal.
- * Local to the matcher; the template module may offer the same function.
- * @param covariance d x d symmetric positive definite
- * @param count number of member observations n (values below 1 count as 1)
- */
-export function predictiveCovarianceOf(covariance: Matrix, count: number): number[][] {
-  const n = Math.max(1, count);
-  const f = 1 + 1 / n;
-  return covariance.map((row) => row.map((v) => v * f));
-}
+import { predictiveCovariance } from '../template/cell-statistics.js';
+import type { Template } from '../types.js';
 
 export interface CellModel {
   readonly dim: number;
@@ -75,7 +65,7 @@ export function buildCellModel(template: Template): CellModel {
     labelIndex.set(cell.label, k);
     meanRows.push(cell.mean.slice());
     for (let a = 0; a < d; a++) means[k * d + a] = cell.mean[a];
-    const s = predictiveCovarianceOf(cell.covariance, cell.count);
+    const s = predictiveCovariance(cell);
     let l: number[][];
     try {
       l = cholesky(s);
