@@ -80,6 +80,11 @@ export function solveAssignment(cost: readonly (readonly number[])[], options: {
   const c = costStorage(nr * nc);
   const v = new Float64Array(nc);
   const argMin = new Int32Array(nc);
+  if (n === m) {
+    // Starting values of the column minima found while copying (set here, outside the copy's hot function).
+    v.fill(Infinity);
+    argMin.fill(-1);
+  }
   // A square matrix also gets its column minima (for the column reduction) while it is copied.
   const allFinite = transpose
     ? copyCosts(cost, n, m, 1, nc, c)
@@ -242,7 +247,8 @@ function copyCosts(
 /**
  * copyCosts for a square n x n matrix without transposition that also sets
  * v[j] = min_i cost[i][j] and argMin[j] = the lowest such row (-1 for a
- * column of +Infinity only), as columnMinima does, in the same sweep.
+ * column of +Infinity only), as columnMinima does, in the same sweep; v and
+ * argMin must come filled with +Infinity and -1.
  */
 function copySquareCostsWithColumnMinima(
   cost: readonly (readonly number[])[],
@@ -252,8 +258,6 @@ function copySquareCostsWithColumnMinima(
   argMin: Int32Array,
 ): boolean {
   let allFinite = true;
-  v.fill(Infinity);
-  argMin.fill(-1);
   for (let i = 0, k = 0; i < n; i++) {
     const row = cost[i];
     if (row.length !== n) throw new UsageError(`solveAssignment: row ${i} has ${row.length} entries, expected ${n}`);
