@@ -270,9 +270,11 @@ export function greedyMatchingGain(pairs: PairGains, points: number, cells: numb
  *
  * Method (same result as sorting every positive pair, found with less work):
  * the positive pairs are split by a stable counting sort into GREEDY_BANDS
- * bands of equal width in gain, band(g) = min(B - 1, floor((g_max - g) B / g_max))
- * with g_max the largest finite gain (+Infinity falls in band 0). The band
- * index never increases with g, so going band by band respects the order.
+ * bands of equal width in gain, band(g) = min(B - 1, max(0, floor((T - g) B / T)))
+ * with T the largest finite gain among every 8th pair (or, when none of those
+ * is positive, of all pairs); gains at or above T, +Infinity included, fall
+ * in band 0. The band index never increases with g, whatever T > 0 is, so
+ * going band by band respects the order.
  * At the start of a band, its pairs whose point or cell is already matched
  * are dropped (the greedy would skip them: matched ends stay matched); only
  * the rest are sorted exactly (insertion sort for a few, else an LSD radix
@@ -287,8 +289,13 @@ export function greedyMatchingGain(pairs: PairGains, points: number, cells: numb
 export function greedyMatching(pairs: PairGains, points: number, cells: number): HardMatching {
   const cellOfPoint = new Int32Array(points).fill(-1);
   const gains = pairs.gains;
-  const top = largestFinitePositiveGain(gains);
-  if (top < 0) return { total: 0, cellOfPoint };
+  // Scale of the bands: the largest finite gain among every 8th pair (any positive scale keeps the
+  // order exact; gains above it share band 0), else the largest finite gain of all.
+  let top = sampledLargestGain(gains);
+  if (top <= 0) {
+    top = largestFinitePositiveGain(gains);
+    if (top < 0) return { total: 0, cellOfPoint };
+  }
   if (greedyOrder.length < gains.length) growGreedyBuffers(gains.length);
   const bandEnd = sortIntoGainBands(gains, top);
   const rowStart = pairs.rowStart, rowOf = greedyRowOf;
@@ -301,6 +308,16 @@ export function greedyMatching(pairs: PairGains, points: number, cells: number):
 const GREEDY_BANDS = 32;
 /** Above this many pairs to sort in one band, the radix sort replaces the insertion sort. */
 const GREEDY_INSERTION_LIMIT = 48;
+
+/** Largest finite gain among pairs 0, 8, 16, ... (-1 when none of them is positive). */
+function sampledLargestGain(gains: Float64Array): number {
+  let top = -1;
+  for (let j = 0; j < gains.length; j += 8) {
+    const g = gains[j];
+    if (g > top && g !== Infinity) top = g;
+  }
+  return top;
+}
 
 /** Largest finite gain > 0; 0 when every positive gain is +Infinity; -1 when no gain is positive. */
 function largestFinitePositiveGain(gains: Float64Array): number {
@@ -332,8 +349,10 @@ function sortIntoGainBands(gains: Float64Array, top: number): Int32Array {
     const g = gains[j];
     let b = -1;
     if (g > 0) {
-      // (top - g) * scale is in [0, B(1 + eps)] for finite g, -Infinity (or NaN when scale = 0) for +Infinity: | 0 maps those to 0.
-      b = Math.min(last, ((top - g) * scale) | 0);
+      // x = (top - g) * scale is at most B(1 + eps); x <= 0 (g >= top, including +Infinity) and NaN
+      // (+Infinity when scale = 0) go to band 0, the rest to floor(x) (| 0 never wraps below B).
+      const x = (top - g) * scale;
+      b = x > 0 ? Math.min(last, x | 0) : 0;
       end[b]++;
     }
     bandOf[j] = b;
