@@ -134,6 +134,35 @@ export interface MachineInfo {
   readonly platform: string;
   readonly loadAverage: readonly number[];
   readonly date: string;
+  /**
+   * A fixed reference workload for comparing machines: milliseconds to sort
+   * 1,000,000 seeded doubles in a Float64Array (the engine's own sort), best
+   * of five. Readers can scale the absolute times of another machine by the
+   * ratio of this figure.
+   */
+  readonly referenceSortMs: number;
+}
+
+/** The reference workload of MachineInfo.referenceSortMs. */
+export function referenceSortMs(): number {
+  const values = new Float64Array(1_000_000);
+  let best = Infinity;
+  for (let run = 0; run < 5; run++) {
+    let x = 2463534242;
+    for (let i = 0; i < values.length; i++) {
+      // xorshift32 (Marsaglia 2003): the same numbers on every machine.
+      x ^= x << 13;
+      x >>>= 0;
+      x ^= x >>> 17;
+      x ^= x << 5;
+      x >>>= 0;
+      values[i] = x / 4294967296;
+    }
+    const t0 = performance.now();
+    values.sort();
+    best = Math.min(best, performance.now() - t0);
+  }
+  return best;
 }
 
 /** Machine facts for the report: CPU model from /proc/cpuinfo, logical CPUs, memory, load. */
@@ -153,6 +182,7 @@ export function machineInfo(): MachineInfo {
     platform: `${os.type()} ${os.release()} ${os.arch()}`,
     loadAverage: os.loadavg(),
     date: new Date().toISOString(),
+    referenceSortMs: referenceSortMs(),
   };
 }
 

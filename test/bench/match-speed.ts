@@ -16,6 +16,7 @@ import { matchSample, prepareTemplate } from '../../src/match/match-sample.js';
 import { createRng } from '../../src/random.js';
 import { generateAnimal, generateLayout } from '../support/animals.js';
 import { templateFromTraining } from '../match/support.js';
+import { referenceSortMs } from './harness.js';
 
 function argValue(name: string, fallback: string): string {
   const i = process.argv.indexOf(`--${name}`);
@@ -71,3 +72,4 @@ const meanRate = rates.reduce((s, r) => s + r, 0) / rates.length;
 console.log(`template preparation (once per template): ${prepSeconds.toFixed(2)} s wall, ${prepCpu.toFixed(2)} s CPU`);
 console.log(`median time to match 190 points to 190 cells (${arrangement} layout), one thread: ${median.toFixed(3)} s wall, ${medianOf(cpuTimes).toFixed(3)} s CPU (target <= 0.3 s)`);
 console.log(`hypotheses per second of whole-match time: ${meanRate.toFixed(0)}`);
+console.log(`reference workload on this machine (to scale to another): sorting 1,000,000 doubles took ${referenceSortMs().toFixed(0)} ms (best of 5)`);

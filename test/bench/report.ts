@@ -30,6 +30,12 @@ export function renderGenerated(run: RunRecord, results: readonly CaseResult[]):
   out.push(
     `Machine: ${m.cpu}, ${m.nproc} logical CPUs (nproc), ${m.memoryGiB.toFixed(1)} GiB memory, Node ${m.node}, ${m.platform}.`,
   );
+  if (m.referenceSortMs !== undefined) {
+    out.push(
+      '',
+      `Reference workload (to scale these absolute times to another machine): sorting 1,000,000 seeded doubles in a Float64Array took ${m.referenceSortMs.toFixed(0)} ms here at the start of the run (best of five; \`referenceSortMs\` in test/bench/harness.ts). Run the same on your machine and divide.`,
+    );
+  }
   out.push('');
   const runs = new Map<string, string[]>();
   for (const r of results) {

@@ -130,6 +130,7 @@ async function runParent(args: Args): Promise<void> {
   const command = `npx tsx test/bench/run.ts ${process.argv.slice(2).join(' ')}`.trim();
   console.log(`cairn benchmarks  ${machine.date}`);
   console.log(`machine: ${machine.cpu}, ${machine.nproc} logical CPUs, ${machine.memoryGiB.toFixed(1)} GiB, Node ${machine.node}, ${machine.platform}`);
+  console.log(`reference workload: sorting 1,000,000 doubles took ${machine.referenceSortMs.toFixed(0)} ms (best of 5)`);
   console.log(`load average at start: ${machine.loadAverage.map((x) => x.toFixed(2)).join(' ')}${args.quick ? '   (--quick: smoke run, few repeats)' : ''}`);
   const tmp = mkdtempSync(path.join(os.tmpdir(), 'cairn-bench-'));
   const results: CaseResult[] = [];
