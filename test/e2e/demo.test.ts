@@ -45,7 +45,7 @@ describe('npm run demo (the README quick start), end to end on a temporary copy'
 
   it('labels the four unlabelled demo animals with at least 85% of their true cells right', () => {
     // Truth: test/fixtures/demo-truth (made by scripts/make-demo-data.ts with the demo data; never shipped in demo-data/).
-    // The matcher reached 92.2% on these animals when this floor was set and 90.6% after the December 2026 speed work
+    // The matcher reached 92.2% on these animals when this floor was set and 91.2% after the December 2026 speed work
     // (docs/algorithms.md); the oracle ceiling is about 97%.
     const dir = join(work, 'out', 'proposals');
     const files = readdirSync(dir).filter((f) => f.endsWith('.csv')).sort();
