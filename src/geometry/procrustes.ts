@@ -294,7 +294,7 @@ function rotationFromSvd(u: number[][], v: number[][], d: number, flipLast: bool
  * diagonal of Sigma_yy, all in one sweep. Pass 1 also checks the inputs (the
  * full check in checkInputs runs only to word the error). The sums are the ones
  * weightedMean and crossCovariance (linear-algebra.ts) form, term by term in the
- * same order, so the results are equal to the bit; d = 3 and d = 2 are unrolled.
+ * same order, so the results are equal to the bit; d = 3 is unrolled.
  *
  * Layout of the result (module scratch, overwritten by the next fit):
  * [W, mu_x (3), mu_y (3), Sigma_xx (3 x 3 row-major, stride 3), Sigma_yx (same), diag Sigma_yy (3)].
@@ -310,8 +310,7 @@ function momentsOrThrow(name: string, source: Points, target: Points, options: F
   let ok = n > 0 && target.length === n && (w === undefined || w.length === n);
   if (ok) {
     if (d === 3) ok = means3(source, target, w, minPoints);
-    else if (d === 2) ok = means2(source, target, w, minPoints);
-    else if (d === 1) ok = meansAny(source, target, w, minPoints, 1);
+    else if (d === 1 || d === 2) ok = meansAny(source, target, w, minPoints, d);
     else ok = false;
   }
   if (!ok) {
@@ -320,7 +319,6 @@ function momentsOrThrow(name: string, source: Points, target: Points, options: F
     throw new Error(`${name}: internal error: input rejected without a reason`);
   }
   if (d === 3) scatter3(source, target, w);
-  else if (d === 2) scatter2(source, target, w);
   else scatterAny(source, target, w, d);
   return moments;
 }
@@ -365,39 +363,7 @@ function means3(source: Points, target: Points, w: readonly number[] | undefined
   return true;
 }
 
-/** Pass 1 in 2-D (as means3). */
-function means2(source: Points, target: Points, w: readonly number[] | undefined, minPoints: number): boolean {
-  const n = source.length;
-  let total = 0, positive = 0, bad = 0;
-  let x0 = 0, x1 = 0, y0 = 0, y1 = 0;
-  for (let i = 0; i < n; i++) {
-    const p = source[i], q = target[i];
-    if (p.length !== 2 || q.length !== 2) return false;
-    const p0 = p[0], p1 = p[1], q0 = q[0], q1 = q[1];
-    bad += p0 * 0 + p1 * 0 + q0 * 0 + q1 * 0;
-    let wi = 1;
-    if (w !== undefined) {
-      wi = w[i];
-      if (!(wi >= 0 && wi <= Number.MAX_VALUE)) return false;
-      if (wi > 0) positive++;
-    } else positive++;
-    total += wi;
-    x0 += wi * p0;
-    x1 += wi * p1;
-    y0 += wi * q0;
-    y1 += wi * q1;
-  }
-  if (bad !== 0 || positive < minPoints) return false;
-  const m = moments;
-  m[TOTAL] = total;
-  m[MX] = x0 / total;
-  m[MX + 1] = x1 / total;
-  m[MY] = y0 / total;
-  m[MY + 1] = y1 / total;
-  return true;
-}
-
-/** Pass 1 in any dimension d <= 3 (used for d = 1; as means3). */
+/** Pass 1 in any dimension d <= 3 (used for d = 1, 2; the same sums as means3). */
 function meansAny(source: Points, target: Points, w: readonly number[] | undefined, minPoints: number, d: number): boolean {
   const n = source.length;
   let total = 0, positive = 0, bad = 0;
@@ -489,44 +455,7 @@ function scatter3(source: Points, target: Points, w: readonly number[] | undefin
   m[SYY + 2] = yy2 / t;
 }
 
-/** Pass 2 in 2-D (as scatter3; stride 3 kept). */
-function scatter2(source: Points, target: Points, w: readonly number[] | undefined): void {
-  const m = moments;
-  const mx0 = m[MX], mx1 = m[MX + 1], my0 = m[MY], my1 = m[MY + 1];
-  let xx00 = 0, xx01 = 0, xx10 = 0, xx11 = 0, yx00 = 0, yx01 = 0, yx10 = 0, yx11 = 0, yy0 = 0, yy1 = 0;
-  const n = source.length;
-  for (let i = 0; i < n; i++) {
-    const p = source[i], q = target[i];
-    const wi = w === undefined ? 1 : w[i];
-    const dx0 = p[0] - mx0, dx1 = p[1] - mx1;
-    const dy0 = q[0] - my0, dy1 = q[1] - my1;
-    const a0 = wi * dx0, a1 = wi * dx1;
-    const b0 = wi * dy0, b1 = wi * dy1;
-    xx00 += a0 * dx0;
-    xx01 += a0 * dx1;
-    xx10 += a1 * dx0;
-    xx11 += a1 * dx1;
-    yx00 += b0 * dx0;
-    yx01 += b0 * dx1;
-    yx10 += b1 * dx0;
-    yx11 += b1 * dx1;
-    yy0 += b0 * dy0;
-    yy1 += b1 * dy1;
-  }
-  const t = m[TOTAL];
-  m[SXX] = xx00 / t;
-  m[SXX + 1] = xx01 / t;
-  m[SXX + 3] = xx10 / t;
-  m[SXX + 4] = xx11 / t;
-  m[SXY] = yx00 / t;
-  m[SXY + 1] = yx01 / t;
-  m[SXY + 3] = yx10 / t;
-  m[SXY + 4] = yx11 / t;
-  m[SYY] = yy0 / t;
-  m[SYY + 1] = yy1 / t;
-}
-
-/** Pass 2 in any dimension d <= 3 (used for d = 1; as scatter3). */
+/** Pass 2 in any dimension d <= 3 (used for d = 1, 2; the same sums as scatter3). */
 function scatterAny(source: Points, target: Points, w: readonly number[] | undefined, d: number): void {
   const m = moments;
   for (let r = 0; r < d; r++) {

@@ -88,14 +88,8 @@ function jacobiInPlace(a: Matrix, d: number, m: Float64Array, v: Float64Array | 
 /** Eigen-decomposition of a symmetric d x d matrix (d <= 3 intended): values descending, vectors as columns. */
 export function symmetricEigenSmall(a: Matrix): { values: number[]; vectors: number[][] } {
   const d = a.length;
-  const small = d <= 3;
-  const m = small ? WORK_M : new Float64Array(d * d);
-  const v = small ? WORK_V : new Float64Array(d * d);
-  jacobiInPlace(a, d, m, v);
-  const diagonal = small ? WORK_D : new Float64Array(d);
-  const order = small ? WORK_ORDER : new Int32Array(d);
-  for (let i = 0; i < d; i++) diagonal[i] = m[i * d + i];
-  orderDescending(diagonal, d, order);
+  const v = d <= 3 ? WORK_V : new Float64Array(d * d);
+  const { diagonal, order } = jacobiDescending(a, d, v);
   const values = new Array<number>(d);
   const vectors: number[][] = [];
   for (let c = 0; c < d; c++) values[c] = diagonal[order[c]];
@@ -113,14 +107,23 @@ export function symmetricEigenSmall(a: Matrix): { values: number[]; vectors: num
  */
 export function symmetricEigenvaluesSmall(a: Matrix, out: Float64Array): void {
   const d = a.length;
+  const { diagonal, order } = jacobiDescending(a, d, null);
+  for (let c = 0; c < d; c++) out[c] = diagonal[order[c]];
+}
+
+/**
+ * Jacobi rotations on a (accumulated into v when given), then the diagonal and
+ * the order of its entries, descending (module scratch for d <= 3).
+ */
+function jacobiDescending(a: Matrix, d: number, v: Float64Array | null): { diagonal: Float64Array; order: Int32Array } {
   const small = d <= 3;
   const m = small ? WORK_M : new Float64Array(d * d);
-  jacobiInPlace(a, d, m, null);
+  jacobiInPlace(a, d, m, v);
   const diagonal = small ? WORK_D : new Float64Array(d);
   const order = small ? WORK_ORDER : new Int32Array(d);
   for (let i = 0; i < d; i++) diagonal[i] = m[i * d + i];
   orderDescending(diagonal, d, order);
-  for (let c = 0; c < d; c++) out[c] = diagonal[order[c]];
+  return { diagonal, order };
 }
 
 /**
