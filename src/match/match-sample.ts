@@ -325,12 +325,12 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const finalists = distinctTransforms(screened.map((s) => s.transform), points, FINALISTS, 2 * typicalSpacing(model)).filter((t, i) => i === 0 || screenGainOf(t) >= screened[0].gain - FINALIST_GAP);
   const greedyObjective = (t: Transform): number => {
     if (!isPlausible(t, affineLimits)) return -Infinity;
-    return matchingGain(prepared, points, t, params, fixed, false);
+    return matchFree(prepared, points, t, params, fixed, false).gain;
   };
   const spacing0 = typicalSpacing(model);
   const refined = finalists.map((t) => {
     const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: spacing0 / 2 }, 'similarity', COMPASS_EVALUATIONS);
-    return { transform: c.transform, gain: matchingGain(prepared, points, c.transform, params, fixed, true) };
+    return { transform: c.transform, gain: matchFree(prepared, points, c.transform, params, fixed, true).gain };
   });
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
   // Affine refinement of the chosen pose (hard EM on the matching, greedy).
@@ -429,22 +429,10 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
 }
 
 /**
- * The matching gain of the map t: given pairs count with their own gains;
- * the other points and cells are matched one-to-one (greedy, or optimal when
- * `exact`).
+ * The one-to-one matching of the free points and cells at the map t and its
+ * gain: given pairs count with their own gains; the other points and cells
+ * are matched one-to-one (greedy, or optimal when `exact`).
  */
-function matchingGain(
-  prepared: PreparedTemplate,
-  points: Points,
-  t: Transform,
-  params: MatchModelParameters,
-  fixed: readonly Pair[],
-  exact: boolean,
-): number {
-  return matchFree(prepared, points, t, params, fixed, exact).gain;
-}
-
-/** The one-to-one matching of the free points and cells at the map t, given pairs kept (see matchingGain). */
 function matchFree(
   prepared: PreparedTemplate,
   points: Points,

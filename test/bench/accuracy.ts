@@ -35,6 +35,7 @@ import { createRng, shuffle } from '../../src/random.js';
 import { buildTemplate } from '../../src/template/index.js';
 import type { Sample, Template } from '../../src/types.js';
 import { generateAnimal, generateLayout, type Animal, type Layout } from '../support/animals.js';
+import { argValue } from './harness.js';
 
 interface CaseSpec {
   name: string;
@@ -48,11 +49,6 @@ const CASES: CaseSpec[] = [
   { name: 'half-jitter', jitterScale: 0.5, arrangement: 'uniform' },
   { name: 'ganglia', jitterScale: 1, arrangement: 'ganglia' },
 ];
-
-function argValue(name: string, fallback: string): string {
-  const i = process.argv.indexOf(`--${name}`);
-  return i >= 0 && i + 1 < process.argv.length ? process.argv[i + 1] : fallback;
-}
 
 const animalsPerCase = Number(argValue('animals', '8'));
 const seed = Number(argValue('seed', '2026'));

@@ -143,6 +143,12 @@ export interface MachineInfo {
   readonly referenceSortMs: number;
 }
 
+/** The value after `--name` on the command line of a benchmark script, or `fallback`. */
+export function argValue(name: string, fallback: string): string {
+  const i = process.argv.indexOf(`--${name}`);
+  return i >= 0 && i + 1 < process.argv.length ? process.argv[i + 1] : fallback;
+}
+
 /** The reference workload of MachineInfo.referenceSortMs. */
 export function referenceSortMs(): number {
   const values = new Float64Array(1_000_000);

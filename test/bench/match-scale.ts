@@ -22,11 +22,7 @@ import { serializeTemplate } from '../../src/io/template-file.js';
 import { createRng } from '../../src/random.js';
 import { generateAnimal, generateLayout, writeSampleCsv } from '../support/animals.js';
 import { templateFromTraining } from '../match/support.js';
-
-function argValue(name: string, fallback: string): string {
-  const i = process.argv.indexOf(`--${name}`);
-  return i >= 0 && i + 1 < process.argv.length ? process.argv[i + 1] : fallback;
-}
+import { argValue } from './harness.js';
 
 const samples = Number(argValue('samples', '10000'));
 const jobs = argValue('jobs', '2');

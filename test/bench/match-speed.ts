@@ -16,12 +16,7 @@ import { matchSample, prepareTemplate } from '../../src/match/match-sample.js';
 import { createRng } from '../../src/random.js';
 import { generateAnimal, generateLayout } from '../support/animals.js';
 import { templateFromTraining } from '../match/support.js';
-import { referenceSortMs } from './harness.js';
-
-function argValue(name: string, fallback: string): string {
-  const i = process.argv.indexOf(`--${name}`);
-  return i >= 0 && i + 1 < process.argv.length ? process.argv[i + 1] : fallback;
-}
+import { argValue, referenceSortMs, summarize } from './harness.js';
 
 const count = Number(argValue('animals', '10'));
 const seed = Number(argValue('seed', '11'));
@@ -63,13 +58,9 @@ for (let a = 0; a < count; a++) {
   rates.push(result.trials / seconds);
   console.log(`${animal.sample.id}: ${animal.sample.coords.length} points, ${seconds.toFixed(3)} s wall, ${cpu.toFixed(3)} s CPU, ${result.trials} trials (${result.stopReason})`);
 }
-function medianOf(xs: number[]): number {
-  const sorted = xs.slice().sort((x, y) => x - y);
-  return sorted.length % 2 ? sorted[sorted.length >> 1] : (sorted[sorted.length / 2 - 1] + sorted[sorted.length / 2]) / 2;
-}
-const median = medianOf(times);
+const median = summarize(times).median;
 const meanRate = rates.reduce((s, r) => s + r, 0) / rates.length;
 console.log(`template preparation (once per template): ${prepSeconds.toFixed(2)} s wall, ${prepCpu.toFixed(2)} s CPU`);
-console.log(`median time to match 190 points to 190 cells (${arrangement} layout), one thread: ${median.toFixed(3)} s wall, ${medianOf(cpuTimes).toFixed(3)} s CPU (target <= 0.3 s)`);
+console.log(`median time to match 190 points to 190 cells (${arrangement} layout), one thread: ${median.toFixed(3)} s wall, ${summarize(cpuTimes).median.toFixed(3)} s CPU (target <= 0.3 s)`);
 console.log(`hypotheses per second of whole-match time: ${meanRate.toFixed(0)}`);
 console.log(`reference workload on this machine (to scale to another): sorting 1,000,000 doubles took ${referenceSortMs().toFixed(0)} ms (best of 5)`);
