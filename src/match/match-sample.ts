@@ -125,6 +125,8 @@ export interface PreparedTemplate {
   readonly positiveGrids: readonly CellGrid[];
   /** Smallest log det S_k over the cells. */
   readonly minLogDet: number;
+  /** Median nearest-neighbour distance of the template means (typicalSpacing). */
+  readonly spacing: number;
   /** Principal axes of the template means (columns) and their centroid. */
   readonly axes: number[][];
   readonly centroid: number[];
@@ -174,7 +176,8 @@ export function prepareTemplate(template: Template): PreparedTemplate {
   const scatter = Array.from({ length: d }, () => new Array<number>(d).fill(0));
   for (const m of model.meanRows) for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) scatter[a][b] += (m[a] - centroid[a]) * (m[b] - centroid[b]);
   const axes = symmetricEigen(scatter).vectors;
-  const prepared = { model, descriptors, density, pairGrid, positiveGrids, minLogDet, axes, centroid };
+  const spacing = typicalSpacing(model);
+  const prepared = { model, descriptors, density, pairGrid, positiveGrids, minLogDet, spacing, axes, centroid };
   cache.set(template, prepared);
   return prepared;
 }
@@ -322,14 +325,13 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // Screen the candidates with greedy hard EM (similarity), then refine the best three distinct modes further.
   const screened = screen(candidates);
   const screenGainOf = (t: Transform): number => screened.find((m) => m.transform === t)?.gain ?? -Infinity;
-  const finalists = distinctTransforms(screened.map((s) => s.transform), points, FINALISTS, 2 * typicalSpacing(model)).filter((t, i) => i === 0 || screenGainOf(t) >= screened[0].gain - FINALIST_GAP);
+  const finalists = distinctTransforms(screened.map((s) => s.transform), points, FINALISTS, 2 * prepared.spacing).filter((t, i) => i === 0 || screenGainOf(t) >= screened[0].gain - FINALIST_GAP);
   const greedyObjective = (t: Transform): number => {
     if (!isPlausible(t, affineLimits)) return -Infinity;
     return matchFree(prepared, points, t, params, fixed, false).gain;
   };
-  const spacing0 = typicalSpacing(model);
   const refined = finalists.map((t) => {
-    const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: spacing0 / 2 }, 'similarity', COMPASS_EVALUATIONS);
+    const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: prepared.spacing / 2 }, 'similarity', COMPASS_EVALUATIONS);
     return { transform: c.transform, gain: matchFree(prepared, points, c.transform, params, fixed, true).gain };
   });
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
@@ -339,7 +341,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // Competing modes for the confidences: every distinct mode of the screening, weighed by its
   // screening gain against the winner's (all at the same stage, hence comparable); finalists
   // contribute their refined pose.
-  const separation = 2 * typicalSpacing(model);
+  const separation = 2 * prepared.spacing;
   const winnerIndex = refined.indexOf(best);
   const screenedModes = distinctModes(screened, points, MODES_IN_CONFIDENCE, separation);
   const winnerScreenGain = screenedModes.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
@@ -368,7 +370,6 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     // Stage 3: non-rigid correction.
     let nonRigidApplied = false;
     if (nonRigid && n >= 2 * (d + 1)) {
-      const spacing = typicalSpacing(model);
       const estep = (y: Points) => {
         const g = pairGains(model, prepared.pairGrid, y, jac, params);
         const mg = sinkhorn(g, n, model.size, 40);
@@ -393,7 +394,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
         }
         return { expected, weight, objective: greedyMatchingGain(g, n, model.size) };
       };
-      const nr = nonRigidCorrect(estep, mapped, 6 * spacing, 8, 4);
+      const nr = nonRigidCorrect(estep, mapped, 6 * prepared.spacing, 8, 4);
       if (nr.iterations > 0) {
         mapped = nr.mapped;
         nonRigidApplied = true;
