@@ -31,12 +31,13 @@ import { assignWithAbstention } from './assignment.js';
 import { alignCpd } from './cpd.js';
 import { alignIcp } from './icp.js';
 import { buildCellGrid, type CellGrid } from './cell-grid.js';
+import { crowdedPoints, crowdingLimit } from './crowding.js';
 import { buildCellModel, cellMahalanobisSquared, type CellModel } from './cell-model.js';
 import { buildDensityGrid, boundingVolume, determinantFlat, MixtureScorer, type DensityGrid } from './density-grid.js';
 import { learnCellDescriptors, rankCandidates, rankNormalize, rawDescriptors, type CellDescriptors } from './descriptors.js';
 import { exhaustiveHypotheses, isTinyProblem } from './exhaustive.js';
 import { compassSearch, emRefine, mapPoints, nonRigidCorrect, type MixtureContext } from './refine.js';
-import { searchPose, poseDistance, type Pair, type PoseEstimate, type SearchResult } from './ransac.js';
+import { searchPose, poseDistance, type Pair, type PoseEstimate, type PoseObjective, type SearchResult } from './ransac.js';
 import { toFlat } from './affine-flat.js';
 import { greedyMatching, greedyMatchingGain, pairGains, sinkhorn, type HardMatching, type MatchModelParameters, type PairGains } from './softassign.js';
 
@@ -104,6 +105,8 @@ export interface MatchResult {
   score: number;
   trials: number;
   stopReason: string;
+  /** Crowded points left out of the pose search (crowding.ts); 0 when none were. */
+  crowded: number;
   nonRigid: boolean;
 }
 
@@ -130,6 +133,8 @@ export interface PreparedTemplate {
   /** Principal axes of the template means (columns) and their centroid. */
   readonly axes: number[][];
   readonly centroid: number[];
+  /** Largest crowding of a cell in pseudo-animals (crowding.ts); points above it are crowded. */
+  readonly crowdingLimit: number;
 }
 
 const MAX_INFLATION = 1;
@@ -177,7 +182,7 @@ export function prepareTemplate(template: Template): PreparedTemplate {
   for (const m of model.meanRows) for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) scatter[a][b] += (m[a] - centroid[a]) * (m[b] - centroid[b]);
   const axes = symmetricEigen(scatter).vectors;
   const spacing = typicalSpacing(model);
-  const prepared = { model, descriptors, density, pairGrid, positiveGrids, minLogDet, spacing, axes, centroid };
+  const prepared = { model, descriptors, density, pairGrid, positiveGrids, minLogDet, spacing, axes, centroid, crowdingLimit: crowdingLimit(model, createRng(0x5eed + 1)) };
   cache.set(template, prepared);
   return prepared;
 }
@@ -221,23 +226,16 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const fixed: Pair[] = [...fixedCell].map(([point, cell]) => ({ point, cell }));
 
   const outlierDensity = 1 / boundingVolume(points);
-  const searchShare = 0.25;
-  const mixture = new MixtureScorer(prepared.density, points, searchShare);
-  const ctx: MixtureContext = { model, grid: prepared.pairGrid, outlierShare: searchShare, outlierDensity };
-  const objective = {
-    score: (t: Transform) => mixture.score(toFlat(t)),
-    optimise: (e: PoseEstimate): PoseEstimate => {
-      const r = emRefine(ctx, points, e.transform, 'similarity', limits, 4);
-      const s = mixture.score(toFlat(r.transform));
-      return s.score >= e.score ? { transform: r.transform, score: s.score, hits: s.hits } : e;
-    },
-  };
+  const objective = poseObjective(prepared, points, outlierDensity, limits);
+  // Crowded points (crowding.ts) are left out of the pose search and of the wide screening levels.
+  const tiny = isTinyProblem(d, n, model.size) || n < d + 1;
+  const uncrowded = method === 'ransac' && !tiny ? withoutCrowdedPoints(points, fixed, prepared.crowdingLimit) : null;
 
   let starts: PoseEstimate[] = [];
   let trials = 0;
   let stopReason = '';
   if (method === 'ransac') {
-    if (isTinyProblem(d, n, model.size) || n < d + 1) {
+    if (tiny) {
       const top: PoseEstimate[] = [];
       trials = exhaustiveHypotheses(model, points, limits, (t) => {
         const s = objective.score(t);
@@ -256,13 +254,16 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     } else {
       const z = rankNormalize(rawDescriptors(points, prepared.descriptors.spec));
       const candidates = rankCandidates(z, prepared.descriptors, Math.min(model.size, 40));
-      const search: SearchResult = searchPose(model, objective, points, candidates, {
+      const set = uncrowded ?? { points, fixed, index: null };
+      const setCandidates = set.index ? { cells: set.index.map((i) => candidates.cells[i]), costs: set.index.map((i) => candidates.costs[i]) } : candidates;
+      const setObjective = uncrowded ? poseObjective(prepared, uncrowded.points, outlierDensity, limits) : objective;
+      const search: SearchResult = searchPose(model, setObjective, set.points, setCandidates, {
         rng: options.rng,
         maxTrials: options.maxTrials ?? DEFAULT_MAX_TRIALS,
         minTrials: Math.min(MIN_TRIALS, options.maxTrials ?? DEFAULT_MAX_TRIALS),
         limits,
         firstCandidates: 12,
-        fixed,
+        fixed: set.fixed,
         keep: 8,
       });
       starts = search.alternatives.slice();
@@ -292,13 +293,15 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   };
   // Screening refinement: hard EM with annealed cell widths (S_k x 4, x 2, x 1) so that starts a few
   // micrometres off reach the optimum of their basin; after each level only the better half of the
-  // candidates (at least FINALISTS + 3) goes on (successive halving).
+  // candidates (at least FINALISTS + 3) goes on (successive halving). The widened levels leave crowded
+  // points out (with wide cells a clump of them pulls a pose onto itself); the last scores all points.
   const screen = (ts: readonly Transform[]): { transform: Transform; gain: number }[] => {
     let pool = ts.map((t) => ({ transform: t, gain: -Infinity }));
     ANNEALING.forEach((inflation, level) => {
+      const set = inflation > 1 && uncrowded ? uncrowded : { points, fixed };
       pool = pool
         .map((c) => {
-          const r = hardEmRefine(prepared, points, c.transform, 'similarity', limits, { ...params, inflation }, fixed, { iterations: SCREEN_ITERATIONS[level] });
+          const r = hardEmRefine(prepared, set.points, c.transform, 'similarity', limits, { ...params, inflation }, set.fixed, { iterations: SCREEN_ITERATIONS[level] });
           return { transform: r.transform, gain: r.gain };
         })
         .sort((a, b) => b.gain - a.gain);
@@ -423,10 +426,52 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       score,
       trials,
       stopReason,
+      crowded: uncrowded ? n - uncrowded.points.length : 0,
       nonRigid: nonRigidApplied,
     };
 
   }
+}
+
+/**
+ * The pose search's objective on a set of points: the MLESAC mixture
+ * likelihood (density-grid.ts; outlier share 0.25) as the score and four EM
+ * steps on it (refine.ts) as the local optimisation, kept only when they raise
+ * the score.
+ */
+function poseObjective(prepared: PreparedTemplate, points: Points, outlierDensity: number, limits: Plausibility): PoseObjective {
+  const searchShare = 0.25;
+  const mixture = new MixtureScorer(prepared.density, points, searchShare);
+  const ctx: MixtureContext = { model: prepared.model, grid: prepared.pairGrid, outlierShare: searchShare, outlierDensity };
+  return {
+    score: (t: Transform) => mixture.score(toFlat(t)),
+    optimise: (e: PoseEstimate): PoseEstimate => {
+      const r = emRefine(ctx, points, e.transform, 'similarity', limits, 4);
+      const s = mixture.score(toFlat(r.transform));
+      return s.score >= e.score ? { transform: r.transform, score: s.score, hits: s.hits } : e;
+    },
+  };
+}
+
+/**
+ * The sample without its crowded points (crowding.ts), for the pose search and
+ * the wide screening levels: `index` gives each kept point's index in the
+ * sample, `fixed` the given pairs renumbered (points with a given label are
+ * always kept). Null when fewer than D + 2 points are crowded (too few to carry
+ * a pose of their own) or fewer than 2 (D + 1) would remain.
+ */
+function withoutCrowdedPoints(points: Points, fixed: readonly Pair[], limit: number): { points: Points; fixed: Pair[]; index: number[] } | null {
+  const d = points[0].length;
+  const crowded = crowdedPoints(points, limit);
+  const given = new Set(fixed.map((f) => f.point));
+  const index = points.map((_, i) => i).filter((i) => !crowded[i] || given.has(i));
+  if (points.length - index.length < d + 2 || index.length < 2 * (d + 1)) return null;
+  const renumber = new Map(index.map((i, j) => [i, j]));
+  return {
+    points: index.map((i) => points[i]),
+    fixed: fixed.map((f) => ({ point: renumber.get(f.point) as number, cell: f.cell })),
+    index,
+  };
 }
 
 /**
