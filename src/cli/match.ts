@@ -76,6 +76,8 @@ export interface MatchSampleSummary {
   readonly score: number | null;
   readonly trials: number | null;
   readonly stopReason: string | null;
+  /** Crowded points left out of the pose search (denser than any part of the template: likely a clump of outliers). */
+  readonly crowded: number | null;
   readonly nonRigid: boolean | null;
   /** Wall time of matching, seconds; absent under --no-timestamp (it differs from run to run). */
   readonly seconds?: number;
@@ -253,6 +255,7 @@ export async function runMatch(
       score: null,
       trials: null,
       stopReason: null,
+      crowded: null,
       nonRigid: null,
       ...(timestamp ? { seconds } : {}),
       error,
@@ -311,6 +314,7 @@ export async function runMatch(
       score: r.score,
       trials: r.trials,
       stopReason: r.stopReason,
+      crowded: r.crowded,
       nonRigid: r.nonRigid,
       ...(timestamp ? { seconds: t.seconds } : {}),
       error: null,
@@ -372,6 +376,12 @@ function renderText(s: MatchSummary, dir: string): string {
     }
     lines.push(
       `${e.id}   ${e.points}   ${e.proposed}   ${e.meanConfidence === null ? '-' : e.meanConfidence.toFixed(3)}   ${e.trials}   ${e.stopReason}   ${e.seconds === undefined ? '-' : e.seconds.toFixed(2)}   ${path.join(dir, e.output ?? '')}`,
+    );
+  }
+  const crowded = s.samples.filter((e) => (e.crowded ?? 0) > 0);
+  if (crowded.length > 0) {
+    lines.push(
+      `crowded points left out of the pose search (packed more densely than any part of the template, most likely a clump of outliers; they still get proposals): ${crowded.map((e) => `${e.id} ${e.crowded}`).join(', ')}`,
     );
   }
   lines.push('Labels are proposals to verify, not identifications.');

@@ -70,6 +70,27 @@ describe('cairn match', () => {
     expect(summary.samples[0].transform.linear).toHaveLength(3);
   });
 
+  it('reports crowded points (a dense clump beside the head) in summary.json and on stdout', async () => {
+    const rng = createRng(778);
+    const layout = generateLayout(rng, { cells: 40, dim: 3 });
+    const template = templateFromTraining(layout, rng, { members: 10, animal: { jitterScale: 0.3 } });
+    const tfile = join(dir, 'template-crowd.json');
+    writeFileSync(tfile, serializeTemplate(template));
+    const a = generateAnimal(layout, rng, 'clumped', { outlierFraction: 0.4, clusteredOutlierShare: 1, missingFraction: 0.1, jitterScale: 0.3 });
+    const file = join(dir, 'clumped.csv');
+    writeFileSync(file, formatCsv(['x', 'y', 'z'], a.sample.coords.map((p) => [...p])));
+    const out = join(dir, 'out-crowd');
+    const r = await run('match', tfile, file, sampleFiles[0], '-o', out, '--seed', '5', '--max-trials', '100');
+    expect(r.code).toBe(0);
+    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8'));
+    const [clumped, plain] = summary.samples as { crowded: number }[];
+    expect(clumped.crowded).toBeGreaterThanOrEqual(5);
+    expect(plain.crowded).toBe(0);
+    expect(r.stdout).toContain(`crowded points left out of the pose search`);
+    expect(r.stdout).toContain(`clumped ${clumped.crowded}`);
+    expect(r.stdout).not.toContain('probe0 0');
+  });
+
   it('gives byte-identical CSVs with --jobs 2 and --jobs 1', async () => {
     const a = join(dir, 'serial');
     const b = join(dir, 'parallel');
