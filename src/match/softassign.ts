@@ -246,6 +246,58 @@ export function sinkhorn(pairs: PairGains, points: number, cells: number, iterat
   return { pair, outlier: a.slice(), missing };
 }
 
+/**
+ * Log-likelihood of the points under the one-to-one model in the mean-field
+ * (Sinkhorn) approximation, relative to "all points are outliers":
+ *
+ *   L = sum_i log(1 + sum_k b_k W_ik) = -sum_i log a_i,
+ *
+ * with a_i, b_k the scalings of the module comment. With every b_k = 1 this
+ * is the mixture log-likelihood of the points (each point a cell's point or an
+ * outlier, independently); the column factors b_k <= 1 scale down the cells
+ * that the points would otherwise claim more than once, so a pose cannot gain
+ * by piling points onto the same cells. Unlike the best matching's gain (a
+ * maximum over labellings), L sums over the labellings, so it does not reward
+ * a pose for making its own labelling look certain.
+ *
+ * `columns` (length `cells`) holds the b_k: it is read as the starting point
+ * and overwritten with the result, so that a caller scoring nearby poses can
+ * warm-start each call from the last (a few iterations then suffice; fill it
+ * with 1 for a cold start). `weights` is scratch space of at least the
+ * number of pairs (reallocated when shorter; the caller keeps the returned one).
+ */
+export function pointLikelihood(
+  pairs: PairGains,
+  points: number,
+  cells: number,
+  columns: Float64Array,
+  iterations: number,
+  weights: Float64Array = new Float64Array(0),
+): { value: number; weights: Float64Array } {
+  const m = pairs.rowStart[points];
+  const w = weights.length >= m ? weights : new Float64Array(Math.max(m, 2 * weights.length));
+  for (let j = 0; j < m; j++) w[j] = Math.exp(Math.min(pairs.gains[j], 600));
+  const b = columns;
+  const colSum = new Float64Array(cells);
+  for (let it = 0; it < iterations; it++) {
+    colSum.fill(0);
+    for (let i = 0; i < points; i++) {
+      let s = 1;
+      for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) s += b[pairs.cells[j]] * w[j];
+      const a = 1 / s;
+      for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) colSum[pairs.cells[j]] += a * w[j];
+    }
+    for (let k = 0; k < cells; k++) b[k] = colSum[k] > 1 ? 1 / colSum[k] : 1;
+  }
+  let value = 0;
+  for (let i = 0; i < points; i++) {
+    let s = 1;
+    for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) s += b[pairs.cells[j]] * w[j];
+    value += Math.log(s);
+  }
+  return { value, weights: w };
+}
+
 export interface HardMatching {
   /** Sum of the gains of the matched pairs. */
   readonly total: number;

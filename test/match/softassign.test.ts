@@ -3,7 +3,7 @@ import fc from 'fast-check';
 import { gaussianLogDensity } from '../../src/geometry/index.js';
 import { buildCellGrid } from '../../src/match/cell-grid.js';
 import { buildCellModel } from '../../src/match/cell-model.js';
-import { greedyMatching, pairGains, sinkhorn, type PairGains } from '../../src/match/softassign.js';
+import { greedyMatching, pairGains, pointLikelihood, sinkhorn, type PairGains } from '../../src/match/softassign.js';
 import { templateFromLayout } from './support.js';
 
 /** A pair table from a dense gain matrix (rows = points); null = no pair. */
@@ -103,6 +103,61 @@ describe('sinkhorn (posterior marginals)', () => {
       ),
       { seed: 42, numRuns: 60 },
     );
+  });
+});
+
+describe('pointLikelihood (points under the one-to-one model, Sinkhorn column factors)', () => {
+  const cold = (cells: number) => new Float64Array(cells).fill(1);
+
+  it('is the mixture log-likelihood sum_i log(1 + sum_k W_ik) when no cell is over-claimed (hand computation)', () => {
+    // Point 0 near cells 0 and 1 (gains 0.5, -1), point 1 near cell 2 (gain 2): no column sum exceeds 1.
+    const g = table([
+      [0.5, -1, null],
+      [null, null, 2],
+    ]);
+    const expected = Math.log(1 + Math.exp(0.5) + Math.exp(-1)) + Math.log(1 + Math.exp(2));
+    const columns = cold(3);
+    expect(pointLikelihood(g, 2, 3, columns, 20).value).toBeCloseTo(expected, 12);
+    expect(Array.from(columns)).toEqual([1, 1, 1]);
+  });
+
+  it('gives two points that claim one cell 2 log 2 in all, whatever their gain (worked example)', () => {
+    // W = [[w], [w]], w > 1: the fixed point is b = 1 / w, a_i = 1 / 2, so L = 2 log 2, while the
+    // mixture without the one-cell limit would give 2 log(1 + w): piling points onto a cell earns nothing.
+    for (const gain of [0.5, 3, 9]) {
+      const w = Math.exp(gain);
+      const columns = cold(1);
+      const r = pointLikelihood(table([[gain], [gain]]), 2, 1, columns, 200);
+      expect(r.value).toBeCloseTo(2 * Math.log(2), 9);
+      expect(columns[0]).toBeCloseTo(1 / w, 9);
+    }
+  });
+
+  it('reaches the same value warm-started from converged factors in one iteration as cold in many', () => {
+    const rng = (() => {
+      let x = 12345;
+      return () => ((x = (x * 1103515245 + 12345) % 2147483648) / 2147483648);
+    })();
+    const gains = Array.from({ length: 30 }, () => Array.from({ length: 20 }, () => (rng() < 0.3 ? 6 * rng() - 2 : null)));
+    const g = table(gains);
+    const columns = cold(20);
+    const many = pointLikelihood(g, 30, 20, columns, 500).value;
+    expect(pointLikelihood(g, 30, 20, columns, 1).value).toBeCloseTo(many, 8);
+    // Never above the mixture log-likelihood (b_k <= 1).
+    const mixture = gains.reduce((s, row) => s + Math.log(1 + row.reduce<number>((t, v) => t + (v === null ? 0 : Math.exp(v)), 0)), 0);
+    expect(many).toBeLessThanOrEqual(mixture + 1e-9);
+  });
+
+  it('agrees with sinkhorn: L = -sum_i log P(i is an outlier)', () => {
+    const g = table([
+      [2, 1.5, null],
+      [1.8, null, 0.2],
+      [null, 3, 2.5],
+      [2.2, 2.1, null],
+    ]);
+    const m = sinkhorn(g, 4, 3, 2000, 1e-14);
+    const expected = -Array.from(m.outlier).reduce((s, a) => s + Math.log(a), 0);
+    expect(pointLikelihood(g, 4, 3, cold(3), 2000).value).toBeCloseTo(expected, 8);
   });
 });
 
