@@ -66,9 +66,9 @@ const MIN_TRIALS = 100;
 const COMPASS_EVALUATIONS = 15;
 /**
  * A finalist other than the best screened mode is polished and compared only
- * when its screening gain is within this many nats of the best (log-likelihood
- * ratio: e^-30 odds; further behind, polishing did not change the winner on
- * the accuracy suite and costs a compass search).
+ * when its points' likelihood is within this many nats of the best
+ * (log-likelihood ratio: e^-30 odds; further behind, polishing did not change
+ * the winner on the accuracy suite and costs a compass search).
  */
 const FINALIST_GAP = 30;
 /** Default plausible scale range of the sample -> template map (template kept at the average animal's size). */
@@ -158,10 +158,12 @@ const ROLL_STEPS = 12;
 const MODES_IN_CONFIDENCE = 8;
 /** Distinct pose modes refined to the end and compared by their optimal matching. */
 const FINALISTS = 3;
-/** Objective evaluations of the final polish on the points' likelihood: similarity, then affine. */
-const POLISH_EVALUATIONS = [40, 30];
-/** Sinkhorn iterations per evaluation of the polish (warm-started from the previous evaluation). */
-const POLISH_SINKHORN_ITERATIONS = 5;
+/** Objective evaluations of the final polish on the points' likelihood. */
+const POLISH_EVALUATIONS = 30;
+/** Sinkhorn sweeps when the column factors start from 1 (modes, finalists, the polish's start). */
+const FRESH_SWEEPS = 30;
+/** Sinkhorn sweeps per later evaluation of the polish (factors carried from the previous one). */
+const POLISH_SWEEPS = 5;
 
 const cache = new WeakMap<Template, PreparedTemplate>();
 
@@ -335,36 +337,41 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     for (const s of starts.slice(1, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
     candidates = candidates.concat(extra);
   }
-  // Screen the candidates with greedy hard EM (similarity), then refine the best three distinct modes further.
-  const screened = screen(candidates);
+  // Screen the candidates with greedy hard EM (similarity); rank the distinct modes by the points'
+  // likelihood, and refine the best three further (modes were ranked by the greedy matching gain until
+  // December 2026: in a uniformly packed head at full jitter, 0.204 -> 0.261 of the ceiling on 16
+  // animals; ganglia and half jitter unchanged on 32).
+  const pointLikelihoodAt = pointLikelihoodScorer(prepared, points, params, fixed);
+  const separation = 2 * prepared.spacing;
+  const screened = distinctModes(screen(candidates), points, MODES_IN_CONFIDENCE, separation)
+    .map((m) => ({ transform: m.transform, gain: pointLikelihoodAt(m.transform, FRESH_SWEEPS, true) }))
+    .sort((a, b) => b.gain - a.gain);
   const screenGainOf = (t: Transform): number => screened.find((m) => m.transform === t)?.gain ?? -Infinity;
-  const finalists = distinctTransforms(screened.map((s) => s.transform), points, FINALISTS, 2 * prepared.spacing).filter((t, i) => i === 0 || screenGainOf(t) >= screened[0].gain - FINALIST_GAP);
+  const finalists = screened.slice(0, FINALISTS).map((m) => m.transform).filter((t, i) => i === 0 || screenGainOf(t) >= screened[0].gain - FINALIST_GAP);
   const greedyObjective = (t: Transform): number => {
     if (!isPlausible(t, affineLimits)) return -Infinity;
     return matchFree(prepared, points, t, params, fixed, false).gain;
   };
   const refined = finalists.map((t) => {
     const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: prepared.spacing / 2 }, 'similarity', COMPASS_EVALUATIONS);
-    return { transform: c.transform, gain: matchFree(prepared, points, c.transform, params, fixed, true).gain };
+    return { transform: c.transform, gain: pointLikelihoodAt(c.transform, FRESH_SWEEPS, true) };
   });
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
-  // Affine refinement of the chosen pose (hard EM on the matching, greedy), then a polish, similarity
-  // then affine, on the points' one-to-one likelihood, which sums over labellings instead of taking the
-  // best one (added in December 2026: ganglia 0.944 -> 0.986 of the ceiling on 32 animals and
-  // 0.953 -> 0.971 on 64, half jitter 0.931 -> 0.930, 40% outliers 0.890 -> 0.910 on 16; without the
-  // hard-EM steps before it the suite was the same but the demo animals lost 0.8 points).
+  // Affine refinement of the chosen pose (hard EM on the matching, greedy), then an affine polish on
+  // the points' one-to-one likelihood, which sums over labellings instead of taking the best one (added
+  // in December 2026: ganglia 0.944 -> 0.986 of the ceiling on 32 animals and 0.953 -> 0.971 on 64,
+  // half jitter 0.931 -> 0.930, 40% outliers 0.890 -> 0.910 on 16; without the hard-EM steps before it
+  // the suite was the same but the demo animals lost 0.8 points).
   const hardPose = hardEmRefine(prepared, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
   const finalPose = polishOnPointLikelihood(prepared, points, hardPose, params, fixed, affineLimits);
   // The other distinct pose modes weigh in on the confidences (model averaging over poses).
   // Competing modes for the confidences: every distinct mode of the screening, weighed by its
-  // screening gain against the winner's (all at the same stage, hence comparable); finalists
+  // points' likelihood against the winner's (all at the same stage, hence comparable); finalists
   // contribute their refined pose.
-  const separation = 2 * prepared.spacing;
   const winnerIndex = refined.indexOf(best);
-  const screenedModes = distinctModes(screened, points, MODES_IN_CONFIDENCE, separation);
-  const winnerScreenGain = screenedModes.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
+  const winnerScreenGain = screened.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
   const others: { transform: Transform; gain: number }[] = [];
-  for (const m of screenedModes) {
+  for (const m of screened) {
     const f = finalists.findIndex((t) => poseDistance(t, m.transform, points) < 1e-9);
     if (f === winnerIndex) continue;
     others.push({ transform: f >= 0 ? refined[f].transform : m.transform, gain: m.gain });
@@ -373,10 +380,10 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
 
   /**
    * Stages 3 and 4 from the chosen affine pose. `otherModes` are competing
-   * poses with their matching gains; the confidence of a proposal is its
+   * poses with their points' likelihoods; the confidence of a proposal is its
    * posterior averaged over the modes with weights exp(gain_m - bestGain)
-   * (each mode's evidence approximated by its best matching, all compared at
-   * the same screening stage).
+   * (each mode's evidence approximated by its points' likelihood, all compared
+   * at the same screening stage).
    */
   function finish(finalPose: Transform, otherModes: readonly { transform: Transform; gain: number }[] = [], bestGain = 0): MatchResult {
     // rho and Lambda for the final posterior, from the chosen pose.
@@ -449,22 +456,18 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
 }
 
 /**
- * Compass search (refine.ts) of the final pose on the points' one-to-one
- * likelihood (softassign.ts, pointLikelihood; given pairs count with their own
- * gains): first over a similarity on top of the start (POLISH_EVALUATIONS[0]
- * evaluations), then over an affine one with smaller steps
- * (POLISH_EVALUATIONS[1]). The Sinkhorn column factors carry over from one
- * evaluation to the next (nearby poses, nearly the same factors), so
- * POLISH_SINKHORN_ITERATIONS per evaluation suffice.
+ * The points' one-to-one likelihood (softassign.ts, pointLikelihood) at maps
+ * t, given pairs counting with their own gains (fixedGain). The Sinkhorn
+ * column factors stay between calls: `fresh` starts them from 1 (for a map
+ * unrelated to the last one); otherwise they start from the last call's, which
+ * for a nearby map needs only a few sweeps.
  */
-function polishOnPointLikelihood(
+function pointLikelihoodScorer(
   prepared: PreparedTemplate,
   points: Points,
-  start: Transform,
   params: MatchModelParameters,
   fixed: readonly Pair[],
-  limits: Plausibility,
-): Transform {
+): (t: Transform, sweeps: number, fresh: boolean) => number {
   const { model } = prepared;
   const n = points.length, K = model.size;
   const columns = new Float64Array(K).fill(1);
@@ -475,17 +478,43 @@ function polishOnPointLikelihood(
   const colIndex = new Int32Array(K);
   const fixedCells = new Set(fixed.map((f) => f.cell));
   for (let k = 0; k < K; k++) colIndex[k] = fixedCells.has(k) ? -1 : k;
-  const objective = (t: Transform): number => {
-    if (!isPlausible(t, limits)) return -Infinity;
+  return (t, sweeps, fresh) => {
+    if (fresh) columns.fill(1);
     const all = pairGains(model, prepared.pairGrid, mapPoints(t, points), jacobianOf(t), params, false, true);
     const g = fixed.length > 0 ? restrictGains(all, rows, colIndex) : all;
-    const r = pointLikelihood(g, rows.length, K, columns, POLISH_SINKHORN_ITERATIONS, weights);
+    const r = pointLikelihood(g, rows.length, K, columns, sweeps, weights);
     weights = r.weights;
     return r.value + fixedGain(model, points, t, params, fixed);
   };
+}
+
+/**
+ * Compass search (refine.ts) of the final pose on the points' one-to-one
+ * likelihood: an affine map on top of the start, small steps (0.01 rad, 0.01
+ * log-scale and shear, a sixth of the cell spacing), POLISH_EVALUATIONS
+ * evaluations. The start is scored from fresh column factors with
+ * FRESH_SWEEPS Sinkhorn sweeps; each later evaluation starts from the
+ * previous one's factors (nearby maps, nearly the same factors) with
+ * POLISH_SWEEPS.
+ */
+function polishOnPointLikelihood(
+  prepared: PreparedTemplate,
+  points: Points,
+  start: Transform,
+  params: MatchModelParameters,
+  fixed: readonly Pair[],
+  limits: Plausibility,
+): Transform {
+  const score = pointLikelihoodScorer(prepared, points, params, fixed);
+  let first = true;
+  const objective = (t: Transform): number => {
+    if (!isPlausible(t, limits)) return -Infinity;
+    const value = score(t, first ? FRESH_SWEEPS : POLISH_SWEEPS, first);
+    first = false;
+    return value;
+  };
   const s = prepared.spacing;
-  const similar = compassSearch(objective, start, prepared.centroid, { rotation: 0.03, scale: 0.02, translation: s / 3 }, 'similarity', POLISH_EVALUATIONS[0]);
-  return compassSearch(objective, similar.transform, prepared.centroid, { rotation: 0.01, scale: 0.01, translation: s / 6, shear: 0.01 }, 'affine', POLISH_EVALUATIONS[1]).transform;
+  return compassSearch(objective, start, prepared.centroid, { rotation: 0.01, scale: 0.01, translation: s / 6, shear: 0.01 }, 'affine', POLISH_EVALUATIONS).transform;
 }
 
 /**
@@ -700,16 +729,6 @@ function distinctModes(modes: readonly { transform: Transform; gain: number }[],
   for (const m of modes) {
     if (out.some((q) => poseDistance(q.transform, m.transform, points) < separation)) continue;
     out.push(m);
-    if (out.length >= keep) break;
-  }
-  return out;
-}
-
-function distinctTransforms(ts: Transform[], points: Points, keep: number, separation: number): Transform[] {
-  const out: Transform[] = [];
-  for (const t of ts) {
-    if (out.some((q) => poseDistance(q, t, points) < separation)) continue;
-    out.push(t);
     if (out.length >= keep) break;
   }
   return out;
