@@ -66,9 +66,9 @@ const MIN_TRIALS = 100;
 const COMPASS_EVALUATIONS = 15;
 /**
  * A finalist other than the best screened mode is polished and compared only
- * when its points' likelihood is within this many nats of the best
- * (log-likelihood ratio: e^-30 odds; further behind, polishing did not change
- * the winner on the accuracy suite and costs a compass search).
+ * when its screening gain is within this many nats of the best (log-likelihood
+ * ratio: e^-30 odds; further behind, polishing did not change the winner on
+ * the accuracy suite and costs a compass search).
  */
 const FINALIST_GAP = 30;
 /** Default plausible scale range of the sample -> template map (template kept at the average animal's size). */
@@ -160,7 +160,7 @@ const MODES_IN_CONFIDENCE = 8;
 const FINALISTS = 3;
 /** Objective evaluations of the final polish on the points' likelihood. */
 const POLISH_EVALUATIONS = 30;
-/** Sinkhorn sweeps when the column factors start from 1 (modes, finalists, the polish's start). */
+/** Sinkhorn sweeps when the column factors start from 1 (the polish's start). */
 const FRESH_SWEEPS = 30;
 /** Sinkhorn sweeps per later evaluation of the polish (factors carried from the previous one). */
 const POLISH_SWEEPS = 5;
@@ -337,24 +337,22 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     for (const s of starts.slice(1, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
     candidates = candidates.concat(extra);
   }
-  // Screen the candidates with greedy hard EM (similarity); rank the distinct modes by the points'
-  // likelihood, and refine the best three further (modes were ranked by the greedy matching gain until
-  // December 2026: in a uniformly packed head at full jitter, 0.204 -> 0.261 of the ceiling on 16
-  // animals; ganglia and half jitter unchanged on 32).
-  const pointLikelihoodAt = pointLikelihoodScorer(prepared, points, params, fixed);
+  // Screen the candidates with greedy hard EM (similarity), then refine the best three distinct modes
+  // further. (Ranking the modes, and choosing among the finalists, by the points' likelihood of the
+  // polish below instead was tried in December 2026: in a uniformly packed head at full jitter it
+  // raised the matcher from 0.204 to 0.261 of the ceiling without given labels but lowered it from
+  // 0.749 to 0.677 with 8 given labels, 24 animals; ganglia and half jitter unchanged.)
   const separation = 2 * prepared.spacing;
-  const screened = distinctModes(screen(candidates), points, MODES_IN_CONFIDENCE, separation)
-    .map((m) => ({ transform: m.transform, gain: pointLikelihoodAt(m.transform, FRESH_SWEEPS, true) }))
-    .sort((a, b) => b.gain - a.gain);
+  const screened = screen(candidates);
   const screenGainOf = (t: Transform): number => screened.find((m) => m.transform === t)?.gain ?? -Infinity;
-  const finalists = screened.slice(0, FINALISTS).map((m) => m.transform).filter((t, i) => i === 0 || screenGainOf(t) >= screened[0].gain - FINALIST_GAP);
+  const finalists = distinctModes(screened, points, FINALISTS, separation).map((m) => m.transform).filter((t, i) => i === 0 || screenGainOf(t) >= screened[0].gain - FINALIST_GAP);
   const greedyObjective = (t: Transform): number => {
     if (!isPlausible(t, affineLimits)) return -Infinity;
     return matchFree(prepared, points, t, params, fixed, false).gain;
   };
   const refined = finalists.map((t) => {
     const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: prepared.spacing / 2 }, 'similarity', COMPASS_EVALUATIONS);
-    return { transform: c.transform, gain: pointLikelihoodAt(c.transform, FRESH_SWEEPS, true) };
+    return { transform: c.transform, gain: matchFree(prepared, points, c.transform, params, fixed, true).gain };
   });
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
   // Affine refinement of the chosen pose (hard EM on the matching, greedy), then an affine polish on
@@ -366,12 +364,13 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const finalPose = polishOnPointLikelihood(prepared, points, hardPose, params, fixed, affineLimits);
   // The other distinct pose modes weigh in on the confidences (model averaging over poses).
   // Competing modes for the confidences: every distinct mode of the screening, weighed by its
-  // points' likelihood against the winner's (all at the same stage, hence comparable); finalists
+  // screening gain against the winner's (all at the same stage, hence comparable); finalists
   // contribute their refined pose.
   const winnerIndex = refined.indexOf(best);
-  const winnerScreenGain = screened.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
+  const screenedModes = distinctModes(screened, points, MODES_IN_CONFIDENCE, separation);
+  const winnerScreenGain = screenedModes.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
   const others: { transform: Transform; gain: number }[] = [];
-  for (const m of screened) {
+  for (const m of screenedModes) {
     const f = finalists.findIndex((t) => poseDistance(t, m.transform, points) < 1e-9);
     if (f === winnerIndex) continue;
     others.push({ transform: f >= 0 ? refined[f].transform : m.transform, gain: m.gain });
@@ -380,10 +379,10 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
 
   /**
    * Stages 3 and 4 from the chosen affine pose. `otherModes` are competing
-   * poses with their points' likelihoods; the confidence of a proposal is its
+   * poses with their matching gains; the confidence of a proposal is its
    * posterior averaged over the modes with weights exp(gain_m - bestGain)
-   * (each mode's evidence approximated by its points' likelihood, all compared
-   * at the same screening stage).
+   * (each mode's evidence approximated by its best matching, all compared at
+   * the same screening stage).
    */
   function finish(finalPose: Transform, otherModes: readonly { transform: Transform; gain: number }[] = [], bestGain = 0): MatchResult {
     // rho and Lambda for the final posterior, from the chosen pose.
