@@ -15,6 +15,7 @@
  */
 import { FitError } from '../errors.js';
 import { cholesky, precisionMatrix, symmetricEigen } from '../geometry/index.js';
+import { randomNormal, type Rng } from '../random.js';
 import { predictiveCovariance } from '../template/cell-statistics.js';
 import type { Template } from '../types.js';
 
@@ -108,4 +109,31 @@ export function cellMahalanobisSquared(model: CellModel, k: number, y: ArrayLike
     s += di * r;
   }
   return s;
+}
+
+/** Share of cells a pseudo-animal misses (drawPseudoAnimal). */
+const PSEUDO_MISSING = 0.15;
+
+/**
+ * One pseudo-animal drawn from the model: each cell kept with probability
+ * 0.85, its point drawn from N(mu_k, S_k); `factors` are the lower Cholesky
+ * factors of the S_k. Draws per cell, in cell order: one uniform, then d
+ * normals when the cell is kept.
+ */
+export function drawPseudoAnimal(model: CellModel, factors: readonly (readonly (readonly number[])[])[], rng: Rng): { cells: number[]; points: number[][] } {
+  const d = model.dim;
+  const cells: number[] = [], points: number[][] = [];
+  for (let k = 0; k < model.size; k++) {
+    if (rng() < PSEUDO_MISSING) continue;
+    const z = Array.from({ length: d }, () => randomNormal(rng));
+    const p = new Array<number>(d);
+    for (let a = 0; a < d; a++) {
+      let s = model.means[k * d + a];
+      for (let b = 0; b <= a; b++) s += factors[k][a][b] * z[b];
+      p[a] = s;
+    }
+    cells.push(k);
+    points.push(p);
+  }
+  return { cells, points };
 }

@@ -22,10 +22,9 @@
  * true pose there); every later stage scores all points.
  */
 import type { Rng } from '../random.js';
-import { randomNormal } from '../random.js';
 import { cholesky } from '../geometry/index.js';
 import type { Points } from '../types.js';
-import type { CellModel } from './cell-model.js';
+import { drawPseudoAnimal, type CellModel } from './cell-model.js';
 
 /** Pseudo-animals drawn for the reference. */
 const PSEUDO_ANIMALS = 8;
@@ -59,25 +58,12 @@ export function crowding(points: Points): Int32Array {
   return out;
 }
 
-/** The largest crowding of a cell over pseudo-animals drawn from the template's Gaussians. */
+/** The largest crowding of a cell over pseudo-animals drawn from the template's Gaussians (cell-model.ts, drawPseudoAnimal). */
 export function crowdingLimit(model: CellModel, rng: Rng): number {
-  const d = model.dim, K = model.size;
   const factors = model.covariances.map((s) => cholesky(s));
   let limit = 0;
   for (let rep = 0; rep < PSEUDO_ANIMALS; rep++) {
-    const pts: number[][] = [];
-    for (let k = 0; k < K; k++) {
-      if (rng() < 0.15) continue;
-      const z = Array.from({ length: d }, () => randomNormal(rng));
-      const p = new Array<number>(d);
-      for (let a = 0; a < d; a++) {
-        let s = model.means[k * d + a];
-        for (let b = 0; b <= a; b++) s += factors[k][a][b] * z[b];
-        p[a] = s;
-      }
-      pts.push(p);
-    }
-    for (const c of crowding(pts)) limit = Math.max(limit, c);
+    for (const c of crowding(drawPseudoAnimal(model, factors, rng).points)) limit = Math.max(limit, c);
   }
   return limit;
 }

@@ -32,10 +32,9 @@
  * Each point's candidates are its cells of lowest cost.
  */
 import type { Rng } from '../random.js';
-import { randomNormal } from '../random.js';
 import { applyToPoint, cholesky } from '../geometry/index.js';
 import type { Points, Template } from '../types.js';
-import type { CellModel } from './cell-model.js';
+import { drawPseudoAnimal, type CellModel } from './cell-model.js';
 
 export interface DescriptorSpec {
   /** Radii (template units), ascending. */
@@ -157,7 +156,7 @@ export function rankNormalize(table: readonly (readonly number[])[]): number[][]
 export function learnCellDescriptors(template: Template, model: CellModel, rng: Rng): CellDescriptors {
   const spec = descriptorSpec(model.meanRows);
   const F = spec.radii.length + spec.quantiles.length;
-  const K = model.size, d = model.dim;
+  const K = model.size;
   const sum = new Float64Array(K * F), sum2 = new Float64Array(K * F), cnt = new Float64Array(K);
   const add = (cells: number[], pts: number[][]): void => {
     if (pts.length < 3) return;
@@ -190,20 +189,8 @@ export function learnCellDescriptors(template: Template, model: CellModel, rng: 
     if (withPositions.length < 3) source = 'simulated';
     const factors = model.covariances.map((s) => cholesky(s));
     for (let rep = 0; rep < 16 && (source === 'simulated' || short()); rep++) {
-      const cells: number[] = [], pts: number[][] = [];
-      for (let k = 0; k < K; k++) {
-        if (rng() < 0.15) continue;
-        const z = Array.from({ length: d }, () => randomNormal(rng));
-        const p = new Array<number>(d);
-        for (let a = 0; a < d; a++) {
-          let s = model.means[k * d + a];
-          for (let b = 0; b <= a; b++) s += factors[k][a][b] * z[b];
-          p[a] = s;
-        }
-        cells.push(k);
-        pts.push(p);
-      }
-      add(cells, pts);
+      const animal = drawPseudoAnimal(model, factors, rng);
+      add(animal.cells, animal.points);
     }
   }
   const mean = new Float64Array(K * F), variance = new Float64Array(K * F);
