@@ -9,12 +9,15 @@
  *      density; EM local optimisation of every new best; adaptive stopping.
  *      1-D and tiny problems enumerate every minimal set instead (exact).
  *      Labels already in the sample are fixed pairs that seed every hypothesis.
+ *      Crowded points (denser than the template allows: crowding.ts) are left
+ *      out of the search and of the widened screening levels.
  *    - 'icp' / 'cpd': the baselines' own alignment (no search, no refinement).
  * 2. Refinement of the best distinct poses (and their half-turns about the
  *    template's principal axes, which the nearly symmetric shape of a head
  *    leaves ambiguous) by hard EM on the one-to-one matching likelihood
  *    (softassign.ts) with annealed cell widths, then compass search; the mode
- *    with the largest optimal matching gain wins and is refined affinely.
+ *    with the largest optimal matching gain wins, is refined affinely and
+ *    polished on the points' one-to-one likelihood (softassign.ts).
  * 3. An optional smooth non-rigid correction (refine.ts).
  * 4. One-to-one assignment with a no-label option on the pair gains (the
  *    negative log-likelihood costs of softassign.ts), given labels kept fixed;
