@@ -360,9 +360,9 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
   // Affine refinement of the chosen pose (hard EM on the matching, greedy), then an affine polish on
   // the points' one-to-one likelihood, which sums over labellings instead of taking the best one (added
-  // in December 2026: ganglia 0.944 -> 0.986 of the ceiling on 32 animals and 0.953 -> 0.971 on 64,
-  // half jitter 0.931 -> 0.930, 40% outliers 0.890 -> 0.910 on 16; without the hard-EM steps before it
-  // the suite was the same but the demo animals lost 0.8 points).
+  // in December 2026: ganglia 0.944 -> 0.990 of the ceiling on 32 animals, half jitter 0.931 -> 0.930,
+  // 40% outliers 0.890 -> 0.905 on 16; without the hard-EM steps before it the suite was the same but
+  // the demo animals lost 0.8 points).
   const hardPose = hardEmRefine(prepared, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
   const finalPose = polishOnPointLikelihood(prepared, points, hardPose, params, fixed, affineLimits);
   // The other distinct pose modes weigh in on the confidences (model averaging over poses).
@@ -474,12 +474,7 @@ function pointLikelihoodScorer(
   const n = points.length, K = model.size;
   const columns = new Float64Array(K).fill(1);
   let weights: Float64Array = new Float64Array(0);
-  const fixedPoint = new Set(fixed.map((f) => f.point));
-  const rows: number[] = [];
-  for (let i = 0; i < n; i++) if (!fixedPoint.has(i)) rows.push(i);
-  const colIndex = new Int32Array(K);
-  const fixedCells = new Set(fixed.map((f) => f.cell));
-  for (let k = 0; k < K; k++) colIndex[k] = fixedCells.has(k) ? -1 : k;
+  const { rows, colIndex } = freeRowsAndColumns(n, K, fixed);
   return (t, sweeps, fresh) => {
     if (fresh) columns.fill(1);
     const all = pairGains(model, prepared.pairGrid, mapPoints(t, points), jacobianOf(t), params, false, true);
@@ -583,18 +578,28 @@ function matchFree(
     const m = exact ? exactMatching(g, n, K) : greedyMatching(g, n, K);
     return { gain: m.total, cellOfPoint: m.cellOfPoint };
   }
-  const fixedPoint = new Set(fixed.map((f) => f.point));
-  const fixedCells = new Set(fixed.map((f) => f.cell));
-  const rows: number[] = [];
-  for (let i = 0; i < n; i++) if (!fixedPoint.has(i)) rows.push(i);
-  const colIndex = new Int32Array(K);
-  for (let k = 0; k < K; k++) colIndex[k] = fixedCells.has(k) ? -1 : k;
+  const { rows, colIndex } = freeRowsAndColumns(n, K, fixed);
   const free = restrictGains(g, rows, colIndex);
   const m = exact ? exactMatching(free, rows.length, K) : greedyMatching(free, rows.length, K);
   const cellOfPoint = new Int32Array(n).fill(-1);
   rows.forEach((i, r) => (cellOfPoint[i] = m.cellOfPoint[r]));
   for (const f of fixed) cellOfPoint[f.point] = f.cell;
   return { gain: m.total + fg, cellOfPoint };
+}
+
+/**
+ * The points and cells outside the given pairs: `rows` lists the free points
+ * in order, `colIndex[k]` is k for a free cell and -1 for a given one (the
+ * arguments of restrictGains).
+ */
+function freeRowsAndColumns(n: number, K: number, fixed: readonly Pair[]): { rows: number[]; colIndex: Int32Array } {
+  const fixedPoint = new Set(fixed.map((f) => f.point));
+  const fixedCells = new Set(fixed.map((f) => f.cell));
+  const rows: number[] = [];
+  for (let i = 0; i < n; i++) if (!fixedPoint.has(i)) rows.push(i);
+  const colIndex = new Int32Array(K);
+  for (let k = 0; k < K; k++) colIndex[k] = fixedCells.has(k) ? -1 : k;
+  return { rows, colIndex };
 }
 
 /**

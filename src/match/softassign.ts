@@ -207,27 +207,9 @@ export interface Marginals {
  * Stops when no scaling changes by more than `tolerance` (relative).
  */
 export function sinkhorn(pairs: PairGains, points: number, cells: number, iterations = 60, tolerance = 1e-6): Marginals {
-  const w = new Float64Array(pairs.gains.length);
-  for (let j = 0; j < w.length; j++) w[j] = Math.exp(Math.min(pairs.gains[j], 600));
+  const w = exponentiate(pairs, points, new Float64Array(pairs.rowStart[points]));
   const a = new Float64Array(points).fill(1), b = new Float64Array(cells).fill(1);
-  const colSum = new Float64Array(cells);
-  for (let it = 0; it < iterations; it++) {
-    let change = 0;
-    for (let i = 0; i < points; i++) {
-      let s = 1;
-      for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) s += b[pairs.cells[j]] * w[j];
-      a[i] = 1 / s;
-    }
-    colSum.fill(0);
-    for (let i = 0; i < points; i++)
-      for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) colSum[pairs.cells[j]] += a[i] * w[j];
-    for (let k = 0; k < cells; k++) {
-      const nb = colSum[k] > 1 ? 1 / colSum[k] : 1;
-      change = Math.max(change, Math.abs(nb - b[k]) / b[k]);
-      b[k] = nb;
-    }
-    if (change < tolerance) break;
-  }
+  balance(pairs, w, points, cells, a, b, iterations, tolerance);
   // Final row projection so that every row is exactly normalised.
   for (let i = 0; i < points; i++) {
     let s = 1;
@@ -247,8 +229,10 @@ export function sinkhorn(pairs: PairGains, points: number, cells: number, iterat
 }
 
 /**
- * Log-likelihood of the points under the one-to-one model in the mean-field
- * (Sinkhorn) approximation, relative to "all points are outliers":
+ * Log-likelihood of the points with the cells' weights balanced by Sinkhorn
+ * scaling (not the exact marginal likelihood of the one-to-one model, which
+ * sums over all matchings: a permanent), relative to "all points are
+ * outliers":
  *
  *   L = sum_i log(1 + sum_k b_k W_ik) = -sum_i log a_i,
  *
@@ -275,20 +259,10 @@ export function pointLikelihood(
   weights: Float64Array = new Float64Array(0),
 ): { value: number; weights: Float64Array } {
   const m = pairs.rowStart[points];
-  const w = weights.length >= m ? weights : new Float64Array(Math.max(m, 2 * weights.length));
-  for (let j = 0; j < m; j++) w[j] = Math.exp(Math.min(pairs.gains[j], 600));
+  const w = exponentiate(pairs, points, weights.length >= m ? weights : new Float64Array(Math.max(m, 2 * weights.length)));
   const b = columns;
-  const colSum = new Float64Array(cells);
-  for (let it = 0; it < iterations; it++) {
-    colSum.fill(0);
-    for (let i = 0; i < points; i++) {
-      let s = 1;
-      for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) s += b[pairs.cells[j]] * w[j];
-      const a = 1 / s;
-      for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) colSum[pairs.cells[j]] += a * w[j];
-    }
-    for (let k = 0; k < cells; k++) b[k] = colSum[k] > 1 ? 1 / colSum[k] : 1;
-  }
+  // Tolerance 0: every sweep runs (the change is never below 0).
+  balance(pairs, w, points, cells, new Float64Array(points), b, iterations, 0);
   let value = 0;
   for (let i = 0; i < points; i++) {
     let s = 1;
@@ -296,6 +270,40 @@ export function pointLikelihood(
     value += Math.log(s);
   }
   return { value, weights: w };
+}
+
+/** W_ij = exp(g_ij) (capped at e^600) into `into`, which must hold every pair; returns `into`. */
+function exponentiate(pairs: PairGains, points: number, into: Float64Array): Float64Array {
+  const m = pairs.rowStart[points];
+  for (let j = 0; j < m; j++) into[j] = Math.exp(Math.min(pairs.gains[j], 600));
+  return into;
+}
+
+/**
+ * Sinkhorn sweeps (module comment): a_i = 1 / (1 + sum_k b_k W_ik) for every
+ * row, then b_k = min(1, 1 / sum_i a_i W_ik); `a` and `b` are updated in place
+ * (b is read as the start). Stops after `iterations` sweeps or when no b_k
+ * changed by more than `tolerance` (relative).
+ */
+function balance(pairs: PairGains, w: Float64Array, points: number, cells: number, a: Float64Array, b: Float64Array, iterations: number, tolerance: number): void {
+  const colSum = new Float64Array(cells);
+  for (let it = 0; it < iterations; it++) {
+    let change = 0;
+    for (let i = 0; i < points; i++) {
+      let s = 1;
+      for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) s += b[pairs.cells[j]] * w[j];
+      a[i] = 1 / s;
+    }
+    colSum.fill(0);
+    for (let i = 0; i < points; i++)
+      for (let j = pairs.rowStart[i]; j < pairs.rowStart[i + 1]; j++) colSum[pairs.cells[j]] += a[i] * w[j];
+    for (let k = 0; k < cells; k++) {
+      const nb = colSum[k] > 1 ? 1 / colSum[k] : 1;
+      change = Math.max(change, Math.abs(nb - b[k]) / b[k]);
+      b[k] = nb;
+    }
+    if (change < tolerance) break;
+  }
 }
 
 export interface HardMatching {
