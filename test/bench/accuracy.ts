@@ -1,14 +1,15 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
  * default case; half of that in the half-jitter case), a bend of up to 3 um,
  * scale +-10%, any rotation, 15% missing cells, 20% outliers of which half in
  * one dense cluster beside the head (--cells and --training change the 190
- * cells and the 25 training animals); the ganglia case packs the same number of
+ * cells and the 25 training animals, --dim 2 gives flat animals, --bend the
+ * largest bend); the ganglia case packs the same number of
  * cells into clusters with gaps between them (as real heads group nuclei in
  * ganglia), at the default jitter. The template is built by buildTemplate
  * (src/template) from 25 training animals labelled at 60%.
@@ -65,12 +66,16 @@ const missingFraction = Number(argValue('missing', '0.15'));
 /** Cells in the invented layout, and training animals the template is built from. */
 const cellCount = Number(argValue('cells', '190'));
 const trainingCount = Number(argValue('training', '25'));
+/** Dimension of the animals, and the largest bend amplitude (um) of training and test animals. */
+const dimension = Number(argValue('dim', '3')) as 2 | 3;
+const bendMax = Number(argValue('bend', '3'));
 if (!(outlierFraction >= 0 && outlierFraction < 1) || !(missingFraction >= 0 && missingFraction < 1)) {
   throw new Error('--outliers and --missing must be fractions in [0, 1)');
 }
 if (!(Number.isInteger(cellCount) && cellCount >= 10) || !(Number.isInteger(trainingCount) && trainingCount >= 3)) {
   throw new Error('--cells must be an integer >= 10 and --training an integer >= 3');
 }
+if ((dimension !== 2 && dimension !== 3) || !(bendMax >= 0)) throw new Error('--dim must be 2 or 3 and --bend a length >= 0 (um)');
 
 interface Tally {
   trueCells: number;
@@ -181,13 +186,14 @@ const HEADER = [
 
 function runCase(spec: CaseSpec): void {
   const rng = createRng(seed + Math.round(spec.jitterScale * 1000) + (spec.arrangement === 'ganglia' ? 1 : 0));
-  const layout = generateLayout(rng, { cells: cellCount, dim: 3, arrangement: spec.arrangement });
+  const layout = generateLayout(rng, { cells: cellCount, dim: dimension, arrangement: spec.arrangement });
   const training = Array.from({ length: trainingCount }, (_, m) =>
     generateAnimal(layout, rng, `train${String(m).padStart(2, '0')}`, {
       labelledFraction: 0.6,
       outlierFraction: 0.05,
       missingFraction: 0.1,
       jitterScale: spec.jitterScale,
+      bend: bendMax,
     }).sample,
   );
   const built = buildTemplate(training);
@@ -206,9 +212,10 @@ function runCase(spec: CaseSpec): void {
       clusteredOutlierShare: 0.5,
       missingFraction,
       jitterScale: spec.jitterScale,
+      bend: bendMax,
     }),
   );
-  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing, any rotation, bend <= 3 um, scale +-10%`);
+  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%`);
   console.log(`template: buildTemplate on ${trainingCount} animals labelled at 60% (${template.cells.length} cells, ${template.members.length} members); ${animals.length} test animals; max trials ${maxTrials ?? 'default'}`);
   console.log(HEADER);
 
