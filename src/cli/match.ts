@@ -1,7 +1,7 @@
 /**
  * `cairn match TEMPLATE SAMPLES... -o DIR [--method ransac|icp|cpd] [--seed N]
  *  [--hit-radius R|auto] [--jobs N] [--max-trials N] [--nonrigid | --no-nonrigid]
- *  [--abstain-below P] [--force] [--json] [--voxel-size X,Y[,Z]] [--no-timestamp]
+ *  [--abstain-below P] [--alternatives N] [--force] [--json] [--voxel-size X,Y[,Z]] [--no-timestamp]
  *  [--html FILE [--accuracy-from EVAL.json]]`:
  * propose labels for samples against a template. Writes DIR/<id>.csv per
  * sample (docs/formats.md, "Match output") and DIR/summary.json; prints a
@@ -28,6 +28,7 @@ import {
   canonicalPath,
   ensureOutputDir,
   formatMatchCsv,
+  MAX_ALTERNATIVES,
   parseCsvRecords,
   readSamplesCollect,
   readTemplate,
@@ -54,6 +55,8 @@ export interface MatchCommandOptions {
   readonly maxTrials?: number;
   readonly nonrigid?: boolean;
   readonly abstainBelow?: number;
+  /** Other labels per point in the CSVs (0-2; default 0). */
+  readonly alternatives?: number;
   readonly force?: boolean;
   readonly json?: boolean;
   readonly voxelSize?: number[];
@@ -294,7 +297,7 @@ export async function runMatch(
       return;
     }
     const out = csvPath(s.id);
-    writeFileAtomic(out, formatMatchCsv(s, r.proposals), { force: o.force });
+    writeFileAtomic(out, formatMatchCsv(s, r.proposals, o.alternatives ?? 0), { force: o.force });
     let proposed = 0;
     let confidence = 0;
     for (const p of r.proposals) {
@@ -403,6 +406,7 @@ export const registerMatch: CommandRegistrar = (program: Command, io: CliIo) => 
     .option('--nonrigid', 'add a smooth non-rigid correction after the affine fit (off by default)')
     .option('--no-nonrigid', 'no non-rigid correction (the default)')
     .option('--abstain-below <p>', 'leave points unlabelled when the confidence of their proposal is below p (default 0)', positiveNumberOption(true))
+    .option('--alternatives <n>', `add to each CSV row the n most probable other labels and their posterior probabilities (columns alternative_1, alternative_1_probability, ...; n from 0 to ${MAX_ALTERNATIVES}, default 0)`, integerOption(0))
     .option('--force', 'replace existing output files')
     .option('--json', 'print the summary as JSON on stdout')
     .option('--voxel-size <x,y[,z]>', 'micrometres per pixel along each axis; coordinates are multiplied by it', voxelSizeOption)
@@ -411,6 +415,7 @@ export const registerMatch: CommandRegistrar = (program: Command, io: CliIo) => 
     .option('--accuracy-from <eval.json>', 'quote on the --html page the accuracy measured by `cairn evaluate --json` (its saved output)')
     .action(async (templatePath: string, samplePaths: string[], o: MatchCommandOptions) => {
       if (o.abstainBelow !== undefined && o.abstainBelow > 1) throw new UsageError(`--abstain-below must be in [0, 1], got ${o.abstainBelow}`);
+      if (o.alternatives !== undefined && o.alternatives > MAX_ALTERNATIVES) throw new UsageError(`--alternatives must be from 0 to ${MAX_ALTERNATIVES} (the matcher keeps the 3 most probable labels per point), got ${o.alternatives}`);
       // SIGINT: stop taking samples, terminate the workers, keep the complete CSVs; a second SIGINT ends the process at once.
       const controller = new AbortController();
       const onSigint = (): void => {

@@ -10,4 +10,4 @@ export { assertWritable, canonicalPath, ensureOutputDir, formatCsv, formatCsvFie
 export type { WriteOptions } from './write.js';
 export { decodeUtf8, readTextFile } from './text-file.js';
 export { parseCsvRecords, type CsvRecord } from './csv.js';
-export { formatMatchCsv, matchCsvHeader, type PointProposal } from './match-output.js';
+export { formatMatchCsv, matchCsvHeader, MAX_ALTERNATIVES, type PointProposal } from './match-output.js';

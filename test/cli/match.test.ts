@@ -113,6 +113,40 @@ describe('cairn match', () => {
     expect((await run('match', templateFile, sampleFiles[0], '-o', out, '--max-trials', '100', '--force')).code).toBe(0);
   });
 
+  it('lists the most probable other labels per point with --alternatives 2, and refuses more than 2', async () => {
+    const out = join(dir, 'alternatives');
+    const r = await run('match', templateFile, sampleFiles[0], '-o', out, '--seed', '5', '--max-trials', '100', '--alternatives', '2');
+    expect(r.code).toBe(0);
+    const rows = readFileSync(join(out, 'probe0.csv'), 'utf8').trim().split('\n').map((l) => l.split(','));
+    expect(rows[0]).toEqual(['row', 'x', 'y', 'z', 'gfp', 'label', 'confidence', 'distance', 'alternative_1', 'alternative_1_probability', 'alternative_2', 'alternative_2_probability']);
+    let listed = 0;
+    for (const f of rows.slice(1)) {
+      const [label, confidence, alt1, p1, alt2, p2] = [f[5], Number(f[6]), f[8], f[9], f[10], f[11]];
+      for (const [alt, p] of [[alt1, p1], [alt2, p2]]) {
+        if (alt === '') continue;
+        listed++;
+        expect(alt).not.toBe(label);
+        expect(Number(p)).toBeGreaterThanOrEqual(0);
+      }
+      if (alt1 !== '' && alt2 !== '') {
+        expect(alt1).not.toBe(alt2);
+        expect(Number(p1)).toBeGreaterThanOrEqual(Number(p2));
+      }
+      // Posterior probabilities of different labels for one point sum to at most 1.
+      if (label !== '') expect(confidence + Number(p1 || 0) + Number(p2 || 0)).toBeLessThanOrEqual(1 + 1e-9);
+    }
+    expect(listed).toBeGreaterThan(0);
+    // The proposals themselves are those of a run without the option.
+    const plainOut = join(dir, 'alternatives-plain');
+    expect((await run('match', templateFile, sampleFiles[0], '-o', plainOut, '--seed', '5', '--max-trials', '100')).code).toBe(0);
+    const plain = readFileSync(join(plainOut, 'probe0.csv'), 'utf8').trim().split('\n');
+    expect(rows.map((f) => f.slice(0, 8).join(','))).toEqual(plain);
+    const refused = await run('match', templateFile, sampleFiles[0], '-o', join(dir, 'alternatives3'), '--alternatives', '3');
+    expect(refused.code).toBe(2);
+    expect(refused.stderr).toContain('--alternatives must be from 0 to 2');
+    expect(existsSync(join(dir, 'alternatives3'))).toBe(false);
+  });
+
   it('exits 2 on an unknown method and on a bad hit radius', async () => {
     expect((await run('match', templateFile, sampleFiles[0], '-o', join(dir, 'x'), '--method', 'guess')).code).toBe(2);
     const r = await run('match', templateFile, sampleFiles[0], '-o', join(dir, 'x'), '--hit-radius', '-1');
