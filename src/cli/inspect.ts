@@ -1,16 +1,19 @@
 /**
  * `cairn inspect TEMPLATE [--csv | --json] [--sort label|variability|separability]
- *  [--html FILE] [--ellipse-probability P] [--force]`: per-cell variability
+ *  [--html FILE [--accuracy-from EVAL.json]] [--ellipse-probability P] [--force]`: per-cell variability
  * and separability of a template, as a text table (default), CSV or JSON on
  * stdout, and optionally the self-contained HTML report.
  *
  * Shape: read (src/io) -> describeCells (src/report) -> render -> print.
  */
 import { Option, type Command } from 'commander';
+import { UsageError } from '../errors.js';
+import { readTextFile } from '../io/text-file.js';
 import { readTemplate } from '../io/template-file.js';
 import { formatCsv, writeFileAtomic } from '../io/write.js';
 import { type CellSortKey, type CellSummary, cellTable, describeCells, sortCellSummaries } from '../report/cell-table.js';
 import { renderInspectHtml, templateFacts } from '../report/inspect-report.js';
+import { measuredAccuracyFromEvaluateJson } from '../report/match-report.js';
 import { fixed } from '../report/svg/common.js';
 import type { Template } from '../types.js';
 import type { CliIo, CommandRegistrar } from './main.js';
@@ -21,6 +24,8 @@ export interface InspectOptions {
   readonly json?: boolean;
   readonly sort: CellSortKey;
   readonly html?: string;
+  /** Saved output of `cairn evaluate --json`, quoted on the --html page. */
+  readonly accuracyFrom?: string;
   readonly force?: boolean;
   readonly ellipseProbability: number;
 }
@@ -68,11 +73,13 @@ export function renderInspectCsv(template: Template, summaries: readonly CellSum
 
 /** Run `inspect`: read, summarise, print; write the HTML report when asked. */
 export function runInspect(path: string, options: InspectOptions, io: CliIo): void {
+  if (options.accuracyFrom !== undefined && options.html === undefined) throw new UsageError('--accuracy-from is quoted in the --html page; give --html FILE too');
   const template = readTemplate(path);
+  const accuracy = options.accuracyFrom === undefined ? undefined : measuredAccuracyFromEvaluateJson(readTextFile(options.accuracyFrom), options.accuracyFrom);
   const summaries = describeCells(template);
   let html: string | undefined;
   if (options.html !== undefined) {
-    html = renderInspectHtml(template, { summaries, source: path, probability: options.ellipseProbability });
+    html = renderInspectHtml(template, { summaries, source: path, probability: options.ellipseProbability, accuracy });
   }
   const stdout = options.json
     ? renderInspectJson(template, summaries, path, options.sort)
@@ -80,7 +87,7 @@ export function runInspect(path: string, options: InspectOptions, io: CliIo): vo
       ? renderInspectCsv(template, summaries, options.sort)
       : renderInspectText(template, summaries, path, options.sort);
   if (options.html !== undefined && html !== undefined) {
-    writeFileAtomic(options.html, html, { force: options.force, inputs: [path] });
+    writeFileAtomic(options.html, html, { force: options.force, inputs: options.accuracyFrom === undefined ? [path] : [path, options.accuracyFrom] });
   }
   io.stdout(stdout);
   if (options.html !== undefined) io.stderr(`cairn inspect: wrote ${options.html}\n`);
@@ -105,6 +112,7 @@ export function registerInspect(program: Command, io: CliIo): void {
         .argParser(probabilityOption)
         .default(0.95),
     )
+    .option('--accuracy-from <eval.json>', 'quote on the --html page the accuracy measured by `cairn evaluate --json` (its saved output)')
     .option('--force', 'overwrite the --html file when it exists')
     .action((template: string, opts: InspectOptions) => {
       runInspect(template, opts, io);

@@ -82,6 +82,29 @@ describe('cairn inspect', () => {
     expect(readFileSync(out, 'utf8')).toContain('holding 50% of its positions');
   });
 
+  it('quotes the accuracy measured by `cairn evaluate --json` on the --html page with --accuracy-from, and needs --html for it', async () => {
+    // The fields measuredAccuracyFromEvaluateJson reads from evaluate's JSON output (figures invented for the test).
+    const evalFile = join(dir, 'eval.json');
+    writeFileSync(evalFile, JSON.stringify({ scheme: 'leave-one-out', report: { accuracy: 0.875, points: 240, coverage: 1, falseLabelRate: 0.125, perSample: [{}, {}, {}] } }));
+    const out = join(dir, 'quoted.html');
+    const r = await run('inspect', file, '--html', out, '--accuracy-from', evalFile);
+    expect(r.code).toBe(0);
+    const html = readFileSync(out, 'utf8');
+    expect(html).toContain('gave the right label to 87.5% of labelled points');
+    expect(html).toContain('leave-one-out, 3 samples, 240 labelled points');
+    expect(html).not.toContain('has not been measured on this lab');
+    const plain = join(dir, 'plain.html');
+    expect((await run('inspect', file, '--html', plain)).code).toBe(0);
+    expect(readFileSync(plain, 'utf8')).toContain('has not been measured on this lab');
+    const alone = await run('inspect', file, '--accuracy-from', evalFile);
+    expect(alone.code).toBe(2);
+    expect(alone.stderr).toContain('--accuracy-from is quoted in the --html page; give --html FILE too');
+    const wrong = await run('inspect', file, '--html', join(dir, 'wrong.html'), '--accuracy-from', file);
+    expect(wrong.code).toBe(1);
+    expect(wrong.stderr).toContain(`${file}: has no "report" object`);
+    expect(existsSync(join(dir, 'wrong.html'))).toBe(false);
+  });
+
   it('never overwrites its input', async () => {
     const before = readFileSync(file, 'utf8');
     const r = await run('inspect', file, '--html', file, '--force');
