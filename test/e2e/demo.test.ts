@@ -41,6 +41,13 @@ describe('npm run demo (the README quick start), end to end on a temporary copy'
       expect(html).toMatch(/^<!DOCTYPE html>/i);
       expect(html).toContain('<svg');
     }
+    // The template and proposal pages quote the accuracy the demo's cross-validation measured.
+    const accuracy = /accuracy\s+(\d+\.\d)%/.exec(run.stdout)?.[1];
+    expect(accuracy).toBeDefined();
+    for (const page of ['template.html', 'proposals.html']) {
+      expect(readFileSync(join(work, 'out', page), 'utf8')).toContain(`gave the right label to ${accuracy}% of labelled points`);
+    }
+    expect(JSON.parse(readFileSync(join(work, 'out', 'evaluation.json'), 'utf8')).report.points).toBeGreaterThan(900);
   });
 
   it('labels the four unlabelled demo animals with at least 85% of their true cells right', () => {
@@ -59,6 +66,8 @@ describe('npm run demo (the README quick start), end to end on a temporary copy'
         expect(Number(p.x)).toBeCloseTo(Number(truth[i].x), 3);
         const confidence = Number(p.confidence);
         expect(confidence >= 0 && confidence <= 1).toBe(true);
+        // The demo lists the two next most probable labels (--alternatives 2).
+        expect(Object.keys(p)).toContain('alternative_2_probability');
         if (truth[i].true_label === '') return;
         cells++;
         if (p.label === truth[i].true_label) correct++;
