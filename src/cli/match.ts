@@ -39,7 +39,7 @@ import {
 import { DEFAULT_HIT_RADIUS, type MatchOptions } from '../match/match-sample.js';
 import { matchSampleStream, type SampleJob, type TimedResult } from '../match/parallel.js';
 import type { MeasuredAccuracy } from '../report/html.js';
-import { MATCH_REPORT_FIGURES, matchedFigureInput, measuredAccuracyFromEvaluateJson, renderMatchHtml } from '../report/match-report.js';
+import { closeCalls, MATCH_REPORT_FIGURES, matchedFigureInput, measuredAccuracyFromEvaluateJson, mergeCloseCalls, renderMatchHtml, type CloseCall } from '../report/match-report.js';
 import type { MatchedFigureInput } from '../report/svg/matched-figure.js';
 import type { Sample, Template } from '../types.js';
 import { VERSION } from '../version.js';
@@ -245,6 +245,7 @@ export async function runMatch(
   // Stream: compact entries by position; the figures of the first samples for --html.
   const entries: (MatchSampleSummary | undefined)[] = new Array(total);
   const figures = new Map<number, MatchedFigureInput>();
+  let closest: CloseCall[] = [];
   const failEntry = (ordinal: number, id: string, source: string, error: string, points = 0, seconds = 0): void => {
     entries[ordinal] = {
       id,
@@ -323,6 +324,7 @@ export async function runMatch(
       error: null,
     };
     if (o.html !== undefined && job.ordinal < MATCH_REPORT_FIGURES) figures.set(job.ordinal, matchedFigureInput(s, r));
+    if (o.html !== undefined) closest = mergeCloseCalls(closest, closeCalls(s, r));
   };
   const outcome = await matchSampleStream(template, jobs(), options, onResult, { threads: Math.max(1, Math.min(o.jobs, total)), signal });
   if (outcome.aborted) throw new MatchInterrupted(entries.filter((e) => e?.output).length, total);
@@ -351,6 +353,7 @@ export async function runMatch(
       rows: samples,
       figures: [...figures.entries()].sort((a, b) => a[0] - b[0]).map(([, f]) => f),
       measured,
+      closeCalls: closest,
       toolLine: `cairn ${VERSION}; template ${templatePath}; ${samplePaths.length} sample file${samplePaths.length === 1 ? '' : 's'}`,
     });
     writeFileAtomic(o.html, html, { force: o.force });

@@ -1,8 +1,9 @@
 /**
  * The HTML report of `cairn match`: the cautions first, a summary of the
  * batch (samples, points, proposals, mean confidence, stop reasons), a table
- * of every sample, and the matched-sample figure for the first
- * MATCH_REPORT_FIGURES samples. Built from compact per-sample rows so that a
+ * of every sample, the closest calls (the proposals whose runner-up label is
+ * nearly as probable, to verify first), and the matched-sample figure for the
+ * first MATCH_REPORT_FIGURES samples. Built from compact per-sample rows so that a
  * streaming batch keeps only what the page needs.
  */
 import { InputError } from '../errors.js';
@@ -24,6 +25,51 @@ import { matchedSampleFigureSvg, type MatchedFigureInput } from './svg/matched-f
 
 /** How many samples get a figure on the page. */
 export const MATCH_REPORT_FIGURES = 12;
+
+/** How many closest calls the page lists (over all samples). */
+export const MATCH_REPORT_CLOSE_CALLS = 30;
+
+/** A proposal whose most probable other label comes close to it. */
+export interface CloseCall {
+  readonly sampleId: string;
+  /** The point's line in its input file. */
+  readonly row: number;
+  readonly label: string;
+  readonly confidence: number;
+  readonly runnerUp: string;
+  readonly runnerUpProbability: number;
+}
+
+/**
+ * The proposals of one matched sample that have a runner-up label (the most
+ * probable label other than the proposed one), ordered by the margin
+ * confidence - runner-up probability, smallest first (ties: by row); at most
+ * `limit`. Points left unlabelled and given labels (no runner-up)
+ * are not listed.
+ */
+export function closeCalls(sample: Sample, result: MatchResult, limit = MATCH_REPORT_CLOSE_CALLS): CloseCall[] {
+  const out: CloseCall[] = [];
+  result.proposals.forEach((p, i) => {
+    if (p.label === null) return;
+    const other = p.alternatives.find((a) => a.label !== p.label);
+    if (other === undefined || !(other.probability > 0)) return;
+    out.push({ sampleId: sample.id, row: sample.rows[i], label: p.label, confidence: p.confidence, runnerUp: other.label, runnerUpProbability: other.probability });
+  });
+  return mergeCloseCalls([], out, limit);
+}
+
+/**
+ * The `limit` closest calls of two lists (each from closeCalls or an earlier
+ * merge): smallest margin first, ties by sample id, then row. The order is
+ * total, so merging the samples of a batch in any order (worker threads
+ * finish in any order) gives the same list.
+ */
+export function mergeCloseCalls(a: readonly CloseCall[], b: readonly CloseCall[], limit = MATCH_REPORT_CLOSE_CALLS): CloseCall[] {
+  const margin = (c: CloseCall): number => c.confidence - c.runnerUpProbability;
+  return [...a, ...b]
+    .sort((x, y) => margin(x) - margin(y) || (x.sampleId < y.sampleId ? -1 : x.sampleId > y.sampleId ? 1 : 0) || x.row - y.row)
+    .slice(0, limit);
+}
 
 /** One sample's line in the report (what summary.json keeps, minus the transform). */
 export interface MatchReportRow {
@@ -48,6 +94,8 @@ export interface MatchReportInput {
   readonly figures: readonly MatchedFigureInput[];
   /** Accuracy `cairn evaluate` measured on the lab's own data, when given. */
   readonly measured?: MeasuredAccuracy;
+  /** The closest calls over the batch (mergeCloseCalls), when collected. */
+  readonly closeCalls?: readonly CloseCall[];
   readonly toolLine?: string;
 }
 
@@ -163,6 +211,31 @@ export function buildMatchReport(input: MatchReportInput): ReportPage {
           rows: rows.map((r) => [r.id, r.points, r.error ? null : r.proposed, r.meanConfidence, r.stopReason, r.error]),
         }),
     },
+    ...(input.closeCalls !== undefined
+      ? [
+          {
+            heading: 'Closest calls',
+            html:
+              (input.closeCalls.length === 0
+                ? paragraph('No proposal had another label with any posterior probability.')
+                : paragraph(
+                    `The ${input.closeCalls.length} proposals whose most probable other label came closest to them (smallest difference in posterior probability), over all samples: verify these first. ` +
+                      'With --alternatives, each CSV lists the next labels of every point.',
+                  ) +
+                  renderTable({
+                    columns: [
+                      { heading: 'sample', numeric: false },
+                      { heading: 'row', numeric: true, digits: 0, description: "the point's line in its input file" },
+                      { heading: 'proposed', numeric: false },
+                      { heading: 'confidence', numeric: true, digits: 3 },
+                      { heading: 'runner-up', numeric: false, description: 'the most probable other label' },
+                      { heading: 'its probability', numeric: true, digits: 3 },
+                    ],
+                    rows: input.closeCalls.map((c) => [c.sampleId, c.row, c.label, c.confidence, c.runnerUp, c.runnerUpProbability]),
+                  })),
+          },
+        ]
+      : []),
     { heading: 'Matched samples', html: (figureHtml || paragraph('No sample could be matched.')) + more },
   ];
   return {

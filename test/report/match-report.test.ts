@@ -3,7 +3,9 @@ import { InputError } from '../../src/errors.js';
 import type { MatchResult } from '../../src/match/match-sample.js';
 import {
   buildMatchReport,
+  closeCalls,
   MATCH_REPORT_FIGURES,
+  mergeCloseCalls,
   matchedFigureInput,
   measuredAccuracyFromEvaluateJson,
   renderMatchHtml,
@@ -89,6 +91,43 @@ describe('measuredAccuracyFromEvaluateJson', () => {
   });
 });
 
+describe('closeCalls and mergeCloseCalls', () => {
+  const four: Sample = { ...sample, coords: [[0, 0, 0], [1, 0, 0], [2, 0, 0], [3, 0, 0]], labels: [null, null, null, null], rows: [2, 3, 5, 6], features: { names: [], values: [[], [], [], []] } };
+  const r: MatchResult = {
+    ...result(['AB1', 'AB2', null, 'AB4'], [0.5, 0.9, 0.7, 0.6]),
+    proposals: [
+      // margin 0.5 - 0.4 = 0.1
+      { label: 'AB1', confidence: 0.5, distance: 1, alternatives: [{ label: 'AB1', probability: 0.5 }, { label: 'AB9', probability: 0.4 }] },
+      // margin 0.9 - 0.05 = 0.85
+      { label: 'AB2', confidence: 0.9, distance: 1, alternatives: [{ label: 'AB2', probability: 0.9 }, { label: 'AB3', probability: 0.05 }] },
+      // unlabelled: not a call
+      { label: null, confidence: 0.7, distance: null, alternatives: [{ label: 'AB5', probability: 0.3 }] },
+      // the runner-up is more probable than the proposal (the one-to-one assignment chose otherwise): margin -0.1
+      { label: 'AB4', confidence: 0.3, distance: 1, alternatives: [{ label: 'AB6', probability: 0.4 }, { label: 'AB4', probability: 0.3 }] },
+    ],
+  };
+
+  it('lists labelled proposals with a runner-up, smallest margin (confidence - runner-up probability) first, at most limit', () => {
+    const calls = closeCalls(four, r);
+    expect(calls.map((c) => [c.row, c.label, c.runnerUp])).toEqual([
+      [6, 'AB4', 'AB6'],
+      [2, 'AB1', 'AB9'],
+      [3, 'AB2', 'AB3'],
+    ]);
+    expect(calls[0]).toEqual({ sampleId: 'gk-07', row: 6, label: 'AB4', confidence: 0.3, runnerUp: 'AB6', runnerUpProbability: 0.4 });
+    expect(closeCalls(four, r, 1)).toHaveLength(1);
+    // A given label (alternatives: itself only) is never a call.
+    expect(closeCalls(sample, { ...result(['AB1', null], [1, 0.5]), proposals: [{ label: 'AB1', confidence: 1, distance: 0, alternatives: [{ label: 'AB1', probability: 1 }] }, { label: null, confidence: 0.5, distance: null, alternatives: [] }] })).toEqual([]);
+  });
+
+  it('merges lists in any order to the same list (ties by sample id, then row)', () => {
+    const a = closeCalls(four, r);
+    const b = closeCalls({ ...four, id: 'gk-08' }, r);
+    expect(mergeCloseCalls(a, b, 4)).toEqual(mergeCloseCalls(b, a, 4));
+    expect(mergeCloseCalls(a, b, 4).map((c) => `${c.sampleId}:${c.row}`)).toEqual(['gk-07:6', 'gk-08:6', 'gk-07:2', 'gk-08:2']);
+  });
+});
+
 describe('buildMatchReport', () => {
   const template = testTemplate({ cells: 12 });
   const base = { template, templatePath: 'lab.json', method: 'ransac', hitRadius: 3, seed: 1 };
@@ -113,6 +152,18 @@ describe('buildMatchReport', () => {
     expect((html.match(/<figure>/g) ?? []).length).toBe(MATCH_REPORT_FIGURES);
     expect(html).toContain(`first ${MATCH_REPORT_FIGURES} of 15 matched samples`);
     expect(wellFormedProblems(html, { html: true })).toEqual([]);
+  });
+
+  it('lists the closest calls in a sortable table when they were collected, and says so when there were none', () => {
+    const calls = [{ sampleId: 'a', row: 7, label: 'AB1', confidence: 0.45, runnerUp: 'AB2', runnerUpProbability: 0.4 }];
+    const html = renderMatchHtml({ ...base, rows: [row('a', 1, 0.45)], figures: [], closeCalls: calls });
+    expect(html).toContain('Closest calls');
+    expect(html).toContain('verify these first');
+    expect(html).toContain('0.450');
+    expect(html).toContain('AB2');
+    expect(wellFormedProblems(html, { html: true })).toEqual([]);
+    expect(renderMatchHtml({ ...base, rows: [row('a', 1, 0.45)], figures: [], closeCalls: [] })).toContain('No proposal had another label');
+    expect(renderMatchHtml({ ...base, rows: [row('a', 1, 0.45)], figures: [] })).not.toContain('Closest calls');
   });
 
   it('quotes a measured accuracy in place of the "not measured" caution', () => {
