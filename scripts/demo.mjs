@@ -6,7 +6,7 @@ import { mkdirSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { main } from '../dist/cli/main.js';
-import { fixed } from '../dist/report/svg/common.js';
+import { accuracySummaryLines } from '../dist/cli/evaluate.js';
 
 const root = fileURLToPath(new URL('..', import.meta.url));
 const out = join(root, 'out');
@@ -61,16 +61,8 @@ await step(`propose labels for ${unlabelled.length} unlabelled animals`, [
   '--html', join(out, 'proposals.html'), '--accuracy-from', evaluationJson,
 ]);
 process.stdout.write(`done in ${((performance.now() - t0) / 1000).toFixed(1)} s\n\n`);
-const report = JSON.parse(evaluation.text()).report;
-const pct = (v) => `${fixed(100 * v, 1)}%`;
 process.stdout.write('How accurate the proposals were on these animals (leave-one-out cross-validation):\n');
-for (const l of [
-  `accuracy            ${pct(report.accuracy)}`,
-  `top-3 accuracy      ${pct(report.top3Accuracy)}`,
-  `given a label       ${pct(report.coverage)}`,
-  `false-label rate    ${pct(report.falseLabelRate)} of proposals made`,
-  `calibration error   ${fixed(report.expectedCalibrationError, 3)} (ECE, 10 bins)`,
-]) process.stdout.write(`  ${l}\n`);
+for (const l of accuracySummaryLines(JSON.parse(evaluation.text()).report)) process.stdout.write(`  ${l}\n`);
 process.stdout.write(`
 Where to look:
   out/template.json        the template (per-cell mean, covariance, count; members; flagged hand labels)

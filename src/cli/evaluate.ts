@@ -33,17 +33,30 @@ export interface EvaluateOptions {
 
 const pct = (v: number) => `${fixed(100 * v, 1)}%`;
 
+/**
+ * The five headline lines of the summary (accuracy, top-3 accuracy, given a
+ * label, false-label rate, calibration error); also what `npm run demo`
+ * prints from evaluate's JSON report, which has the same fields.
+ */
+export function accuracySummaryLines(
+  r: Pick<AccuracyReport, 'accuracy' | 'top3Accuracy' | 'coverage' | 'falseLabelRate' | 'expectedCalibrationError'>,
+): string[] {
+  return [
+    `accuracy            ${pct(r.accuracy)}`,
+    `top-3 accuracy      ${pct(r.top3Accuracy)}`,
+    `given a label       ${pct(r.coverage)}`,
+    `false-label rate    ${pct(r.falseLabelRate)} of proposals made`,
+    `calibration error   ${fixed(r.expectedCalibrationError, 3)} (ECE, 10 bins)`,
+  ];
+}
+
 /** The plain-text summary printed by default. */
 export function renderEvaluateText(result: CrossValidationResult, choice: HitRadiusChoice | null): string {
   const r: AccuracyReport = result.report;
   const lines: string[] = [];
   lines.push(`cross-validation: ${crossValidationScheme(result)} over ${result.samples.length} labelled samples, ${r.points} labelled points scored`);
   if (choice) lines.push(`hit radius chosen by cross-validation: ${choice.hitRadius} (${choice.trials.map((t) => `${t.hitRadius}: ${pct(t.accuracy)}`).join(', ')})`);
-  lines.push(`accuracy            ${pct(r.accuracy)}`);
-  lines.push(`top-3 accuracy      ${pct(r.top3Accuracy)}`);
-  lines.push(`given a label       ${pct(r.coverage)}`);
-  lines.push(`false-label rate    ${pct(r.falseLabelRate)} of proposals made`);
-  lines.push(`calibration error   ${fixed(r.expectedCalibrationError, 3)} (ECE, 10 bins)`);
+  lines.push(...accuracySummaryLines(r));
   lines.push('');
   lines.push('confidence   proposals   mean confidence   observed accuracy');
   for (const b of r.calibration) {

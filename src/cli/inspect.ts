@@ -7,17 +7,14 @@
  * Shape: read (src/io) -> describeCells (src/report) -> render -> print.
  */
 import { Option, type Command } from 'commander';
-import { UsageError } from '../errors.js';
-import { readTextFile } from '../io/text-file.js';
 import { readTemplate } from '../io/template-file.js';
 import { formatCsv, writeFileAtomic } from '../io/write.js';
 import { type CellSortKey, type CellSummary, cellTable, describeCells, sortCellSummaries } from '../report/cell-table.js';
 import { renderInspectHtml, templateFacts } from '../report/inspect-report.js';
-import { measuredAccuracyFromEvaluateJson } from '../report/match-report.js';
 import { fixed } from '../report/svg/common.js';
 import type { Template } from '../types.js';
 import type { CliIo, CommandRegistrar } from './main.js';
-import { probabilityOption } from './options.js';
+import { accuracyFromOption, probabilityOption } from './options.js';
 
 export interface InspectOptions {
   readonly csv?: boolean;
@@ -73,9 +70,8 @@ export function renderInspectCsv(template: Template, summaries: readonly CellSum
 
 /** Run `inspect`: read, summarise, print; write the HTML report when asked. */
 export function runInspect(path: string, options: InspectOptions, io: CliIo): void {
-  if (options.accuracyFrom !== undefined && options.html === undefined) throw new UsageError('--accuracy-from is quoted in the --html page; give --html FILE too');
+  const accuracy = accuracyFromOption(options.accuracyFrom, options.html);
   const template = readTemplate(path);
-  const accuracy = options.accuracyFrom === undefined ? undefined : measuredAccuracyFromEvaluateJson(readTextFile(options.accuracyFrom), options.accuracyFrom);
   const summaries = describeCells(template);
   let html: string | undefined;
   if (options.html !== undefined) {

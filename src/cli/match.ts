@@ -38,12 +38,11 @@ import {
 } from '../io/index.js';
 import { DEFAULT_HIT_RADIUS, type MatchOptions } from '../match/match-sample.js';
 import { matchSampleStream, type SampleJob, type TimedResult } from '../match/parallel.js';
-import type { MeasuredAccuracy } from '../report/html.js';
-import { closeCalls, MATCH_REPORT_FIGURES, matchedFigureInput, measuredAccuracyFromEvaluateJson, mergeCloseCalls, renderMatchHtml, type CloseCall } from '../report/match-report.js';
+import { closeCalls, MATCH_REPORT_FIGURES, matchedFigureInput, mergeCloseCalls, renderMatchHtml, type CloseCall } from '../report/match-report.js';
 import type { MatchedFigureInput } from '../report/svg/matched-figure.js';
 import type { Sample, Template } from '../types.js';
 import { VERSION } from '../version.js';
-import { hitRadiusOption, integerOption, positiveNumberOption, voxelSizeOption } from './options.js';
+import { accuracyFromOption, hitRadiusOption, integerOption, positiveNumberOption, voxelSizeOption } from './options.js';
 import { CommandFailed, type CliIo, type CommandRegistrar } from './main.js';
 
 export interface MatchCommandOptions {
@@ -186,8 +185,7 @@ export async function runMatch(
   if (samplePaths.length === 0) throw new UsageError('no sample files given');
   const timestamp = o.timestamp !== false;
   const template = readTemplate(templatePath);
-  if (o.accuracyFrom !== undefined && o.html === undefined) throw new UsageError('--accuracy-from is quoted in the --html page; give --html FILE too');
-  const measured: MeasuredAccuracy | undefined = o.accuracyFrom === undefined ? undefined : measuredAccuracyFromEvaluateJson(readTextFile(o.accuracyFrom), o.accuracyFrom);
+  const measured = accuracyFromOption(o.accuracyFrom, o.html);
 
   // Plan: ids, dimensions, repeated files and ids, before any work.
   const inputs = [templatePath, ...samplePaths, ...(o.accuracyFrom === undefined ? [] : [o.accuracyFrom])];

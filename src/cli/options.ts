@@ -1,11 +1,26 @@
 /**
  * Commander argument parsers shared by the commands. Each throws commander's
  * InvalidArgumentError (exit code 2, with the usage hint) saying what was
- * expected and what was given.
+ * expected and what was given. Also the reading of --accuracy-from, which
+ * two commands share.
  */
 import { InvalidArgumentError } from 'commander';
 import { UsageError } from '../errors.js';
+import { readTextFile } from '../io/text-file.js';
 import { parseVoxelSize } from '../io/sample-reader.js';
+import { measuredAccuracyFromEvaluateJson, type MeasuredAccuracy } from '../report/html.js';
+
+/**
+ * The accuracy `--accuracy-from EVAL.json` (the saved output of `cairn
+ * evaluate --json`) quotes on an --html page; undefined when the option is not
+ * given. Throws UsageError when it is given without --html, InputError naming
+ * the file when the file is not such output.
+ */
+export function accuracyFromOption(accuracyFrom: string | undefined, html: string | undefined): MeasuredAccuracy | undefined {
+  if (accuracyFrom === undefined) return undefined;
+  if (html === undefined) throw new UsageError('--accuracy-from is quoted in the --html page; give --html FILE too');
+  return measuredAccuracyFromEvaluateJson(readTextFile(accuracyFrom), accuracyFrom);
+}
 
 /** A finite number > 0 (or >= 0 with allowZero). */
 export function positiveNumberOption(allowZero = false) {

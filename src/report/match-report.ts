@@ -6,12 +6,10 @@
  * first MATCH_REPORT_FIGURES samples. Built from compact per-sample rows so that a
  * streaming batch keeps only what the page needs.
  */
-import { InputError } from '../errors.js';
 import { applyToPoint } from '../geometry/transform.js';
 import type { MatchResult } from '../match/match-sample.js';
 import type { Sample, Template } from '../types.js';
 import {
-  measuredAccuracyFromReport,
   paragraph,
   proposalCautions,
   renderFigure,
@@ -114,48 +112,6 @@ export function matchedFigureInput(sample: Sample, result: MatchResult): Matched
       name: `row ${sample.rows[i]}`,
     })),
   };
-}
-
-/**
- * MeasuredAccuracy from the JSON `cairn evaluate --json` prints: its
- * top-level `report` object (accuracy, points, coverage, falseLabelRate,
- * perSample) and `scheme`. Throws InputError naming `file` when the text is
- * not such a document.
- */
-export function measuredAccuracyFromEvaluateJson(text: string, file: string): MeasuredAccuracy {
-  let doc: unknown;
-  try {
-    doc = JSON.parse(text.replace(/^\uFEFF/, ''));
-  } catch (e) {
-    throw new InputError({ file }, `is not valid JSON (${(e as Error).message}); expected the output of \`cairn evaluate --json\``);
-  }
-  const report = (doc as { report?: unknown } | null)?.report as Record<string, unknown> | undefined;
-  if (typeof report !== 'object' || report === null) {
-    throw new InputError({ file }, 'has no "report" object; expected the output of `cairn evaluate --json`');
-  }
-  for (const key of ['accuracy', 'points', 'coverage', 'falseLabelRate'] as const) {
-    if (typeof report[key] !== 'number' || !Number.isFinite(report[key])) {
-      throw new InputError({ file }, `report.${key} must be a finite number; expected the output of \`cairn evaluate --json\``);
-    }
-  }
-  if (!Array.isArray(report.perSample)) throw new InputError({ file }, 'report.perSample must be an array; expected the output of `cairn evaluate --json`');
-  const accuracy = report.accuracy as number;
-  const points = report.points as number;
-  if (!(accuracy >= 0 && accuracy <= 1)) throw new InputError({ file }, `report.accuracy must be in [0, 1], got ${accuracy}`);
-  if (!(Number.isInteger(points) && points > 0) || report.perSample.length === 0) {
-    throw new InputError({ file }, 'reports no labelled points or samples; evaluate measured nothing to quote');
-  }
-  const scheme = typeof (doc as { scheme?: unknown }).scheme === 'string' ? (doc as { scheme: string }).scheme : 'cross-validation';
-  return measuredAccuracyFromReport(
-    {
-      accuracy,
-      points,
-      coverage: report.coverage as number,
-      falseLabelRate: report.falseLabelRate as number,
-      perSample: report.perSample as unknown[],
-    },
-    scheme,
-  );
 }
 
 /** The match report as a ReportPage (render with renderHtmlReport). */

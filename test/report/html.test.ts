@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { UsageError } from '../../src/errors.js';
+import { InputError, UsageError } from '../../src/errors.js';
 import {
+  measuredAccuracyFromEvaluateJson,
   measuredAccuracyFromReport,
   paragraph,
   proposalCautions,
@@ -156,5 +157,29 @@ describe('renderTable', () => {
 describe('renderFigure', () => {
   it('wraps an svg in a figure with an escaped caption', () => {
     expect(renderFigure('<svg></svg>', 'a < b')).toBe('<figure><svg></svg><figcaption>a &lt; b</figcaption></figure>');
+  });
+});
+
+describe('measuredAccuracyFromEvaluateJson', () => {
+  const doc = { scheme: 'leave-one-out', report: { accuracy: 0.8, points: 400, coverage: 0.95, falseLabelRate: 0.12, perSample: [{}, {}, {}, {}] } };
+
+  it('reads accuracy, points, samples, abstained and false-label rate from the evaluate document', () => {
+    const m = measuredAccuracyFromEvaluateJson(JSON.stringify(doc), 'eval.json');
+    expect(m.accuracy).toBe(0.8);
+    expect(m.points).toBe(400);
+    expect(m.samples).toBe(4);
+    expect(m.scheme).toBe('leave-one-out');
+    expect(m.abstained).toBeCloseTo(0.05, 12);
+    expect(m.falseLabelRate).toBe(0.12);
+  });
+
+  it('throws InputError naming the file for text that is not evaluate output', () => {
+    expect(() => measuredAccuracyFromEvaluateJson('{"report": ', 'e.json')).toThrow(/^e\.json: is not valid JSON/);
+    expect(() => measuredAccuracyFromEvaluateJson('{"format":"cairn-template"}', 'e.json')).toThrow(InputError);
+    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, accuracy: 'high' } }), 'e.json')).toThrow(
+      'e.json: report.accuracy must be a finite number',
+    );
+    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, accuracy: 1.5 } }), 'e.json')).toThrow('must be in [0, 1]');
+    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, perSample: [] } }), 'e.json')).toThrow('measured nothing');
   });
 });

@@ -1,5 +1,4 @@
 import { describe, expect, it } from 'vitest';
-import { InputError } from '../../src/errors.js';
 import type { MatchResult } from '../../src/match/match-sample.js';
 import {
   buildMatchReport,
@@ -7,10 +6,10 @@ import {
   MATCH_REPORT_FIGURES,
   mergeCloseCalls,
   matchedFigureInput,
-  measuredAccuracyFromEvaluateJson,
   renderMatchHtml,
   type MatchReportRow,
 } from '../../src/report/match-report.js';
+import { measuredAccuracyFromEvaluateJson } from '../../src/report/html.js';
 import type { Sample } from '../../src/types.js';
 import { testTemplate } from './support/template.js';
 import { wellFormedProblems } from './support/xml.js';
@@ -64,30 +63,6 @@ describe('matchedFigureInput', () => {
       ['AB1', 0.9, 'row 2'],
       [null, 0.6, 'row 3'],
     ]);
-  });
-});
-
-describe('measuredAccuracyFromEvaluateJson', () => {
-  const doc = { scheme: 'leave-one-out', report: { accuracy: 0.8, points: 400, coverage: 0.95, falseLabelRate: 0.12, perSample: [{}, {}, {}, {}] } };
-
-  it('reads accuracy, points, samples, abstained and false-label rate from the evaluate document', () => {
-    const m = measuredAccuracyFromEvaluateJson(JSON.stringify(doc), 'eval.json');
-    expect(m.accuracy).toBe(0.8);
-    expect(m.points).toBe(400);
-    expect(m.samples).toBe(4);
-    expect(m.scheme).toBe('leave-one-out');
-    expect(m.abstained).toBeCloseTo(0.05, 12);
-    expect(m.falseLabelRate).toBe(0.12);
-  });
-
-  it('throws InputError naming the file for text that is not evaluate output', () => {
-    expect(() => measuredAccuracyFromEvaluateJson('{"report": ', 'e.json')).toThrow(/^e\.json: is not valid JSON/);
-    expect(() => measuredAccuracyFromEvaluateJson('{"format":"cairn-template"}', 'e.json')).toThrow(InputError);
-    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, accuracy: 'high' } }), 'e.json')).toThrow(
-      'e.json: report.accuracy must be a finite number',
-    );
-    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, accuracy: 1.5 } }), 'e.json')).toThrow('must be in [0, 1]');
-    expect(() => measuredAccuracyFromEvaluateJson(JSON.stringify({ report: { ...doc.report, perSample: [] } }), 'e.json')).toThrow('measured nothing');
   });
 });
 
