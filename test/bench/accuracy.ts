@@ -69,6 +69,8 @@ const trainingCount = Number(argValue('training', '25'));
 /** Dimension of the animals, and the largest bend amplitude (um) of training and test animals. */
 const dimension = Number(argValue('dim', '3')) as 2 | 3;
 const bendMax = Number(argValue('bend', '3'));
+/** Share of each test animal's remaining cells cut off by a plane (a field of view that misses part of the head). */
+const cropFraction = Number(argValue('crop', '0'));
 if (!(outlierFraction >= 0 && outlierFraction < 1) || !(missingFraction >= 0 && missingFraction < 1)) {
   throw new Error('--outliers and --missing must be fractions in [0, 1)');
 }
@@ -76,6 +78,7 @@ if (!(Number.isInteger(cellCount) && cellCount >= 10) || !(Number.isInteger(trai
   throw new Error('--cells must be an integer >= 10 and --training an integer >= 3');
 }
 if ((dimension !== 2 && dimension !== 3) || !(bendMax >= 0)) throw new Error('--dim must be 2 or 3 and --bend a length >= 0 (um)');
+if (!(cropFraction >= 0 && cropFraction < 1)) throw new Error('--crop must be a fraction in [0, 1)');
 
 interface Tally {
   trueCells: number;
@@ -213,9 +216,10 @@ function runCase(spec: CaseSpec): void {
       missingFraction,
       jitterScale: spec.jitterScale,
       bend: bendMax,
+      cropFraction,
     }),
   );
-  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%`);
+  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing${cropFraction > 0 ? ` and ${Math.round(cropFraction * 100)}% of the rest cut off by a plane` : ''}, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%`);
   console.log(`template: buildTemplate on ${trainingCount} animals labelled at 60% (${template.cells.length} cells, ${template.members.length} members); ${animals.length} test animals; max trials ${maxTrials ?? 'default'}`);
   console.log(HEADER);
 

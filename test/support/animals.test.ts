@@ -181,6 +181,26 @@ describe('generateAnimal', () => {
     }
   });
 
+  it('cuts off the asked fraction of the remaining cells on one side of a plane', () => {
+    const plain = generateAnimal(layout3, createRng(9), 'a', { missingFraction: 0.1 });
+    const cropped = generateAnimal(layout3, createRng(9), 'a', { missingFraction: 0.1, cropFraction: 0.25 });
+    expect(plain.cropDirection).toBeNull();
+    const kept = cropped.truthIndex.filter((c): c is number => c !== null);
+    // The random misses come first and are the same; then 43 (round(0.25 x 171)) of the 171 left are cut.
+    const cut = cropped.missingCells.filter((c) => !plain.missingCells.includes(c));
+    expect(plain.missingCells.every((c) => cropped.missingCells.includes(c))).toBe(true);
+    expect(cut).toHaveLength(43);
+    expect(kept).toHaveLength(171 - 43);
+    // Every cut cell lies beyond every kept one along the plane's normal.
+    const normal = cropped.cropDirection as number[];
+    expect(Math.hypot(...normal)).toBeCloseTo(1, 12);
+    const along = (c: number): number => layout3.positions[c].reduce((s, v, k) => s + v * normal[k], 0);
+    expect(Math.min(...cut.map(along))).toBeGreaterThanOrEqual(Math.max(...kept.map(along)));
+    // A zero fraction changes nothing.
+    expect(generateAnimal(layout3, createRng(9), 'a', { missingFraction: 0.1, cropFraction: 0 }).sample).toEqual(plain.sample);
+    expect(() => generateAnimal(layout3, createRng(1), 'a', { cropFraction: 1.5 })).toThrow('generateAnimal: cropFraction must be in [0, 1], got 1.5');
+  });
+
   it('puts the clustered share of outliers in one dense group beside the head', () => {
     const animal = generateAnimal(layout3, createRng(8), 'a', { outlierFraction: 0.3, clusteredOutlierShare: 0.5 });
     const outliers = animal.sample.coords.filter((_, i) => animal.truth[i] === null).map((p) => animal.toLayoutFrame(p));

@@ -85,6 +85,13 @@ export interface AnimalOptions {
   jitterScale?: number;
   /** Shuffle point order (default true). */
   shuffle?: boolean;
+  /**
+   * Fraction of the cells cut off by a plane, as when the imaged volume
+   * misses one end or side of the head (default 0). The plane is normal to a
+   * random direction and placed so that this fraction of the cells left by
+   * missingFraction lies beyond it; scattered outliers are unaffected.
+   */
+  cropFraction?: number;
 }
 
 export interface Animal {
@@ -103,8 +110,10 @@ export interface Animal {
   /** Signed bend amplitude A (um) and its direction u. */
   bendAmplitude: number;
   bendDirection: number[];
-  /** Indices (into the layout) of the cells that were left out. */
+  /** Indices (into the layout) of the cells that were left out, ascending (random misses and the crop). */
   missingCells: number[];
+  /** Unit normal (layout frame) of the cropping plane, pointing to the cut side; null without a crop. */
+  cropDirection: number[] | null;
   /** Indices of points whose label differs from the truth. */
   wrongLabelPoints: number[];
   /** Maps a layout-frame point forward: x -> t + s R bend(x). */
@@ -367,8 +376,10 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
   const labelledFraction = options.labelledFraction ?? 0;
   const wrongFraction = options.wrongLabelFraction ?? 0;
   const jitterScale = options.jitterScale ?? 1;
+  const cropFraction = options.cropFraction ?? 0;
   for (const [name, v] of [
     ['missingFraction', missingFraction],
+    ['cropFraction', cropFraction],
     ['clusteredOutlierShare', clusteredShare],
     ['labelledFraction', labelledFraction],
     ['wrongLabelFraction', wrongFraction],
@@ -418,9 +429,22 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
     layout.positions.map((_, i) => i),
     rng,
   );
-  const missingCells = order.slice(0, missingCount).sort((x, y) => x - y);
-  const missingSet = new Set(missingCells);
-  const present = layout.positions.map((_, i) => i).filter((i) => !missingSet.has(i));
+  const missingSet = new Set(order.slice(0, missingCount));
+  let present = layout.positions.map((_, i) => i).filter((i) => !missingSet.has(i));
+  let cropDirection: number[] | null = null;
+  if (cropFraction > 0) {
+    // Cut along a random direction: drop the cropFraction of the remaining cells with the largest projection.
+    const z = Array.from({ length: dim }, () => randomNormal(rng));
+    const norm = Math.hypot(...z);
+    const direction = z.map((v) => v / norm);
+    cropDirection = direction;
+    const cut = Math.round(cropFraction * present.length);
+    const byProjection = present.slice().sort((a, b) => dot(layout.positions[b], direction) - dot(layout.positions[a], direction));
+    const cropped = new Set(byProjection.slice(0, cut));
+    present = present.filter((i) => !cropped.has(i));
+  }
+  const presentSet = new Set(present);
+  const missingCells = layout.positions.map((_, i) => i).filter((i) => !presentSet.has(i));
 
   // True points, jittered in the layout frame.
   const layoutPoints: number[][] = [];
@@ -545,6 +569,7 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
     bendAmplitude,
     bendDirection,
     missingCells,
+    cropDirection,
     wrongLabelPoints,
   };
 }
