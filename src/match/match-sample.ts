@@ -40,6 +40,7 @@ import { buildDensityGrid, boundingVolume, determinantFlat, MixtureScorer, type 
 import { learnCellDescriptors, rankCandidates, rankNormalize, rawDescriptors, type CellDescriptors } from './descriptors.js';
 import { exhaustiveHypotheses, isTinyProblem } from './exhaustive.js';
 import { compassSearch, emRefine, mapPoints, nonRigidCorrect, type MixtureContext } from './refine.js';
+import { bestSlide } from './slide.js';
 import { searchPose, poseDistance, type Pair, type PoseEstimate, type PoseObjective, type SearchResult } from './ransac.js';
 import { toFlat } from './affine-flat.js';
 import { greedyMatching, greedyMatchingGain, pairGains, pointLikelihood, sinkhorn, type HardMatching, type MatchModelParameters, type PairGains } from './softassign.js';
@@ -139,6 +140,8 @@ export interface PreparedTemplate {
   readonly minLogDet: number;
   /** Median nearest-neighbour distance of the template means (typicalSpacing). */
   readonly spacing: number;
+  /** Largest distance of a cell mean from the centroid along the long axis (first principal axis). */
+  readonly halfLength: number;
   /** Principal axes of the template means (columns) and their centroid. */
   readonly axes: number[][];
   readonly centroid: number[];
@@ -157,6 +160,24 @@ const ANNEALING = [4, 2, 1];
 const SCREEN_ITERATIONS = [2, 4, 4];
 /** Rolls about the template's long axis tried from the best pose (360 / ROLL_STEPS degrees apart). */
 const ROLL_STEPS = 12;
+/**
+ * Turned poses slid along the template's long axis (slide.ts) that join the
+ * screening: the SLID_CANDIDATES best by the search's mixture score among
+ * those whose best shift is not zero. Shifts are multiples of SLIDE_STEP cell
+ * spacings up to SLIDE_REACH of the template's half-length. Added in December
+ * 2026 for heads partly outside the imaged volume (figures in
+ * docs/algorithms.md).
+ */
+const SLID_CANDIDATES = 6;
+const SLIDE_STEP = 1.5;
+const SLIDE_REACH = 0.5;
+/**
+ * After each widened screening level, up to this many poses beyond the better
+ * half go on as well: the best of the rest that lie more than two cell
+ * spacings from every pose kept, so that many near copies of one mode cannot
+ * crowd out the others.
+ */
+const EXTRA_DISTINCT = 2;
 /** Distinct screened pose modes whose posteriors are averaged into the confidences. */
 const MODES_IN_CONFIDENCE = 8;
 /** Distinct pose modes refined to the end and compared by their optimal matching. */
@@ -197,7 +218,13 @@ export function prepareTemplate(template: Template): PreparedTemplate {
   for (const m of model.meanRows) for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) scatter[a][b] += (m[a] - centroid[a]) * (m[b] - centroid[b]);
   const axes = symmetricEigen(scatter).vectors;
   const spacing = typicalSpacing(model);
-  const prepared = { model, descriptors, density, pairGrid, positiveGrids, minLogDet, spacing, axes, centroid, crowdingLimit: crowdingLimit(model, createRng(0x5eed + 1)) };
+  let halfLength = 0;
+  for (const m of model.meanRows) {
+    let along = 0;
+    for (let a = 0; a < d; a++) along += (m[a] - centroid[a]) * axes[a][0];
+    halfLength = Math.max(halfLength, Math.abs(along));
+  }
+  const prepared = { model, descriptors, density, pairGrid, positiveGrids, minLogDet, spacing, halfLength, axes, centroid, crowdingLimit: crowdingLimit(model, createRng(0x5eed + 1)) };
   cache.set(template, prepared);
   return prepared;
 }
@@ -320,7 +347,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
           return { transform: r.transform, gain: r.gain };
         })
         .sort((a, b) => b.gain - a.gain);
-      if (level < ANNEALING.length - 1) pool = pool.slice(0, Math.max(FINALISTS + 3, Math.ceil(pool.length / 2)));
+      if (level < ANNEALING.length - 1) pool = betterHalfAndDistinct(pool, set.points, Math.max(FINALISTS + 3, Math.ceil(pool.length / 2)), EXTRA_DISTINCT, 2 * prepared.spacing);
     });
     return pool;
   };
@@ -338,7 +365,20 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       extra.push(composeTransforms(r, composeTransforms(flips[flips.length > 1 ? 1 : 0], starts[0].transform)));
     }
     for (const s of starts.slice(1, 3)) for (const f of flips) extra.push(composeTransforms(f, s.transform));
-    candidates = candidates.concat(extra);
+    // The turns are about the template's centroid: when part of the head lies outside the imaged volume,
+    // the sample's cells are off that centroid and a turned pose lands them along the long axis away from
+    // where they belong. The best of the turned poses slid back along the axis join the screening.
+    const slideObjective = uncrowded ? poseObjective(prepared, uncrowded.points, outlierDensity, limits) : objective;
+    const u = prepared.axes.map((row) => row[0]);
+    const step = SLIDE_STEP * prepared.spacing;
+    const steps = Math.floor((SLIDE_REACH * prepared.halfLength) / step);
+    const slid = extra
+      .map((t) => bestSlide(t, u, step, steps, (m) => slideObjective.score(m).score))
+      .filter((m) => m.shift !== 0)
+      .sort((a, b) => b.score - a.score)
+      .slice(0, SLID_CANDIDATES)
+      .map((m) => m.transform);
+    candidates = candidates.concat(extra, slid);
   }
   // Screen the candidates with greedy hard EM (similarity), then refine the best three distinct modes
   // further. (Ranking the modes, and choosing among the finalists, by the points' likelihood of the
@@ -718,6 +758,22 @@ function rollsAboutLongAxis(axes: number[][], centroid: number[], steps: number)
     out.push({ kind: 'rigid', linear, translation });
   }
   return out;
+}
+
+/**
+ * Successive halving with a guard for diversity: the first `quota` of the
+ * pool (sorted by gain, best first), then up to `extra` more, the best of
+ * the rest that lie farther than `separation` (RMS over `points`) from every
+ * pose taken so far.
+ */
+function betterHalfAndDistinct<T extends { transform: Transform }>(pool: readonly T[], points: Points, quota: number, extra: number, separation: number): T[] {
+  const kept = pool.slice(0, quota);
+  for (let j = quota, added = 0; j < pool.length && added < extra; j++)
+    if (kept.every((k) => poseDistance(k.transform, pool[j].transform, points) > separation)) {
+      kept.push(pool[j]);
+      added++;
+    }
+  return kept;
 }
 
 function distinctTop(poses: PoseEstimate[], points: Points, keep: number): PoseEstimate[] {
