@@ -14,7 +14,8 @@
  *    - 'icp' / 'cpd': the baselines' own alignment (no search, no refinement).
  * 2. Refinement of the best distinct poses (and their half-turns about the
  *    template's principal axes, which the nearly symmetric shape of a head
- *    leaves ambiguous) by hard EM on the one-to-one matching likelihood
+ *    leaves ambiguous, some also slid along the long axis for heads partly
+ *    outside the imaged volume: slide.ts) by hard EM on the one-to-one matching likelihood
  *    (softassign.ts) with annealed cell widths, then compass search; the mode
  *    with the largest optimal matching gain wins, is refined affinely and
  *    polished on the points' one-to-one likelihood (softassign.ts).
