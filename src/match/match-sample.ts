@@ -273,6 +273,8 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // Crowded points (crowding.ts) are left out of the pose search and of the wide screening levels.
   const tiny = isTinyProblem(d, n, model.size) || n < d + 1;
   const uncrowded = method === 'ransac' && !tiny ? withoutCrowdedPoints(points, fixed, prepared.crowdingLimit) : null;
+  // The search's mixture likelihood, on the uncrowded points when some are left out (also scores the slides below).
+  const searchObjective = uncrowded ? poseObjective(prepared, uncrowded.points, outlierDensity, limits) : objective;
 
   let starts: PoseEstimate[] = [];
   let trials = 0;
@@ -299,8 +301,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       const candidates = rankCandidates(z, prepared.descriptors, Math.min(model.size, 40));
       const set = uncrowded ?? { points, fixed, index: null };
       const setCandidates = set.index ? { cells: set.index.map((i) => candidates.cells[i]), costs: set.index.map((i) => candidates.costs[i]) } : candidates;
-      const setObjective = uncrowded ? poseObjective(prepared, uncrowded.points, outlierDensity, limits) : objective;
-      const search: SearchResult = searchPose(model, setObjective, set.points, setCandidates, {
+      const search: SearchResult = searchPose(model, searchObjective, set.points, setCandidates, {
         rng: options.rng,
         maxTrials: options.maxTrials ?? DEFAULT_MAX_TRIALS,
         minTrials: Math.min(MIN_TRIALS, options.maxTrials ?? DEFAULT_MAX_TRIALS),
@@ -369,12 +370,11 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     // The turns are about the template's centroid: when part of the head lies outside the imaged volume,
     // the sample's cells are off that centroid and a turned pose lands them along the long axis away from
     // where they belong. The best of the turned poses slid back along the axis join the screening.
-    const slideObjective = uncrowded ? poseObjective(prepared, uncrowded.points, outlierDensity, limits) : objective;
     const u = prepared.axes.map((row) => row[0]);
     const step = SLIDE_STEP * prepared.spacing;
     const steps = Math.floor((SLIDE_REACH * prepared.halfLength) / step);
     const slid = extra
-      .map((t) => bestSlide(t, u, step, steps, (m) => slideObjective.score(m).score))
+      .map((t) => bestSlide(t, u, step, steps, (m) => searchObjective.score(m).score))
       .filter((m) => m.shift !== 0)
       .sort((a, b) => b.score - a.score)
       .slice(0, SLID_CANDIDATES)
