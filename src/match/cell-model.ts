@@ -33,6 +33,12 @@ export interface CellModel {
   readonly covariances: number[][][];
   /** K x d x d precisions S_k^-1, flattened row-major. */
   readonly precisions: Float64Array;
+  /**
+   * Per cell, its mean then its precision (row-major), d + d^2 values per cell:
+   * the same numbers as `means` and `precisions`, interleaved so that the
+   * pair-gain loop reads one cell's data from one place.
+   */
+  readonly meanPrecision: Float64Array;
   /** log det S_k. */
   readonly logDets: Float64Array;
   /** Largest standard deviation sqrt(lambda_max(S_k)). */
@@ -85,7 +91,13 @@ export function buildCellModel(template: Template): CellModel {
     counts[k] = cell.count;
     covariances.push(s);
   });
-  return { dim: d, size: K, labels, labelIndex, means, meanRows, covariances, precisions, logDets, maxStd, isoVar, counts };
+  const stride = d + d * d;
+  const meanPrecision = new Float64Array(K * stride);
+  for (let k = 0; k < K; k++) {
+    meanPrecision.set(means.subarray(k * d, (k + 1) * d), k * stride);
+    meanPrecision.set(precisions.subarray(k * d * d, (k + 1) * d * d), k * stride + d);
+  }
+  return { dim: d, size: K, labels, labelIndex, means, meanRows, covariances, precisions, meanPrecision, logDets, maxStd, isoVar, counts };
 }
 
 /** Squared Mahalanobis distance of y (length d) from cell k under S_k. */

@@ -2,7 +2,9 @@ import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { gaussianLogDensity } from '../../src/geometry/index.js';
 import { buildCellGrid } from '../../src/match/cell-grid.js';
-import { buildCellModel } from '../../src/match/cell-model.js';
+import { buildCellModel, cellMahalanobisSquared } from '../../src/match/cell-model.js';
+import { createRng } from '../../src/random.js';
+import { generateLayout } from '../support/animals.js';
 import { greedyMatching, pairGains, pointLikelihood, sinkhorn, type PairGains } from '../../src/match/softassign.js';
 import { templateFromLayout } from './support.js';
 
@@ -56,6 +58,64 @@ describe('pairGains', () => {
     const expected = Math.log(0.8 * 1.3) + gaussianLogDensity(y, [0, 0, 0], s) - Math.log(3 * 1e-4) - Math.log(0.2);
     expect(g.gains[k]).toBeCloseTo(expected, 10);
   });
+});
+
+describe('pairGains against a scan of every pair', () => {
+  // Reference: every (point, cell) pair, e2 from cellMahalanobisSquared (a separate code path), kept when
+  // e2 <= 3.5^2 c and, with positiveOnly, gain > 0; rows in point order, cells ascending.
+  function reference(model: ReturnType<typeof buildCellModel>, mapped: number[][], jacobian: number, params: { detection: number; outliers: number; outlierDensity: number; inflation?: number }, positiveOnly: boolean) {
+    const c = params.inflation ?? 1;
+    const base = Math.log(params.detection * jacobian) - Math.log(params.outliers * params.outlierDensity) - Math.log(1 - params.detection) - 0.5 * model.dim * Math.log(2 * Math.PI * c);
+    const rows: { cell: number; gain: number; e2: number }[][] = [];
+    for (const y of mapped) {
+      const row: { cell: number; gain: number; e2: number }[] = [];
+      for (let k = 0; k < model.size; k++) {
+        const e2 = cellMahalanobisSquared(model, k, y);
+        if (e2 > 12.25 * c) continue;
+        const gain = base - 0.5 * model.logDets[k] - (0.5 / c) * e2;
+        if (positiveOnly && !(gain > 0)) continue;
+        row.push({ cell: k, gain, e2 });
+      }
+      rows.push(row);
+    }
+    return rows;
+  }
+
+  for (const dim of [2, 3] as const)
+    for (const inflation of [1, 4])
+      it(`lists the same pairs and gains in ${dim}-D at inflation ${inflation}, with and without positiveOnly and scratch`, () => {
+        const rng = createRng(40 + dim + inflation);
+        const layout = generateLayout(rng, { cells: 150, dim, arrangement: 'uniform' });
+        // Cells four times as wide as the layout's jitter: three points (a buffer of 64 entries) crowded into
+        // one spot then reach more cells than the buffer holds, and it must grow.
+        const wide = { ...layout, jitter: layout.jitter.map((m) => m.map((r) => r.map((v) => 16 * v))) };
+        const model = buildCellModel(templateFromLayout(wide, 10));
+        const grid = buildCellGrid(model, 3.5 * Math.sqrt(inflation));
+        // Points over the head and beyond it, and the crowded three.
+        const lo = layout.positions.reduce((m, p) => m.map((v, a) => Math.min(v, p[a])), new Array<number>(dim).fill(Infinity));
+        const hi = layout.positions.reduce((m, p) => m.map((v, a) => Math.max(v, p[a])), new Array<number>(dim).fill(-Infinity));
+        const spread = Array.from({ length: 40 }, () => lo.map((v, a) => v - 5 + rng() * (hi[a] - v + 10)));
+        const crowded = Array.from({ length: 3 }, () => layout.positions[0].map((v) => v + rng()));
+        for (const mapped of [spread, crowded])
+          for (const positiveOnly of [false, true])
+            for (const scratch of [false, true]) {
+              const params = { detection: 0.85, outliers: 20, outlierDensity: 1e-5, inflation };
+              const g = pairGains(model, grid, mapped, 1.1, params, positiveOnly, scratch);
+              const want = reference(model, mapped, 1.1, params, positiveOnly);
+              expect(g.rowStart.length).toBe(mapped.length + 1);
+              want.forEach((row, i) => {
+                const got = Array.from({ length: g.rowStart[i + 1] - g.rowStart[i] }, (_, j) => g.rowStart[i] + j)
+                  .map((j) => ({ cell: g.cells[j], gain: g.gains[j], e2: g.distances[j] }))
+                  .sort((a, b) => a.cell - b.cell);
+                expect(got.map((p) => p.cell)).toEqual(row.map((p) => p.cell));
+                got.forEach((p, j) => {
+                  expect(p.gain).toBeCloseTo(row[j].gain, 9);
+                  expect(p.e2).toBeCloseTo(row[j].e2, 9);
+                });
+              });
+              if (mapped === crowded && !positiveOnly) expect(g.gains.length).toBeGreaterThan(64);
+            }
+      });
 });
 
 describe('sinkhorn (posterior marginals)', () => {
