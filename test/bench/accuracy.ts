@@ -1,7 +1,7 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
@@ -9,7 +9,9 @@
  * scale +-10%, any rotation, 15% missing cells, 20% outliers of which half in
  * one dense cluster beside the head (--cells and --training change the 190
  * cells and the 25 training animals, --dim 2 gives flat animals, --bend the
- * largest bend); the ganglia case packs the same number of
+ * largest bend, --crop cuts that share of each test animal's cells off by a
+ * plane, --axial stretches the depth axis of training and test animals by a
+ * factor within 1 +- F); the ganglia case packs the same number of
  * cells into clusters with gaps between them (as real heads group nuclei in
  * ganglia), at the default jitter. The template is built by buildTemplate
  * (src/template) from 25 training animals labelled at 60%.
@@ -71,6 +73,8 @@ const dimension = Number(argValue('dim', '3')) as 2 | 3;
 const bendMax = Number(argValue('bend', '3'));
 /** Share of each test animal's remaining cells cut off by a plane (a field of view that misses part of the head). */
 const cropFraction = Number(argValue('crop', '0'));
+/** Largest axial (last-axis) scale error of training and test animals: the depth stretched by up to this share. */
+const axialRange = Number(argValue('axial', '0'));
 if (!(outlierFraction >= 0 && outlierFraction < 1) || !(missingFraction >= 0 && missingFraction < 1)) {
   throw new Error('--outliers and --missing must be fractions in [0, 1)');
 }
@@ -79,6 +83,7 @@ if (!(Number.isInteger(cellCount) && cellCount >= 10) || !(Number.isInteger(trai
 }
 if ((dimension !== 2 && dimension !== 3) || !(bendMax >= 0)) throw new Error('--dim must be 2 or 3 and --bend a length >= 0 (um)');
 if (!(cropFraction >= 0 && cropFraction < 1)) throw new Error('--crop must be a fraction in [0, 1)');
+if (!(axialRange >= 0 && axialRange < 1)) throw new Error('--axial must be a fraction in [0, 1)');
 
 interface Tally {
   trueCells: number;
@@ -117,7 +122,7 @@ function score(t: Tally, animal: Animal, proposals: MatchResult['proposals'], sk
 
 function oracleCorrect(template: Template, layout: Layout, layoutToTemplate: ReturnType<typeof fitSimilarity>, animal: Animal, sample: Sample, skip: ReadonlySet<number>): number {
   const mapped = sample.coords.map((p) => applyToPoint(layoutToTemplate.transform, animal.toLayoutFrame(p)));
-  const jacobian = Math.pow(transformScale(layoutToTemplate.transform) / animal.scale, template.dim);
+  const jacobian = Math.pow(transformScale(layoutToTemplate.transform) / animal.scale, template.dim) / animal.axialScale;
   const proposals = labelMappedPoints(template, sample, mapped, jacobian);
   let c = 0;
   animal.truth.forEach((truth, i) => {
@@ -197,6 +202,7 @@ function runCase(spec: CaseSpec): void {
       missingFraction: 0.1,
       jitterScale: spec.jitterScale,
       bend: bendMax,
+      axialScaleRange: axialRange,
     }).sample,
   );
   const built = buildTemplate(training);
@@ -217,9 +223,10 @@ function runCase(spec: CaseSpec): void {
       jitterScale: spec.jitterScale,
       bend: bendMax,
       cropFraction,
+      axialScaleRange: axialRange,
     }),
   );
-  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing${cropFraction > 0 ? ` and ${Math.round(cropFraction * 100)}% of the rest cut off by a plane` : ''}, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%`);
+  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing${cropFraction > 0 ? ` and ${Math.round(cropFraction * 100)}% of the rest cut off by a plane` : ''}, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%${axialRange > 0 ? `, depth stretched by up to +-${Math.round(axialRange * 100)}%` : ''}`);
   console.log(`template: buildTemplate on ${trainingCount} animals labelled at 60% (${template.cells.length} cells, ${template.members.length} members); ${animals.length} test animals; max trials ${maxTrials ?? 'default'}`);
   console.log(HEADER);
 

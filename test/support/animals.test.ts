@@ -301,6 +301,24 @@ describe('generateAnimal', () => {
     expect(plain.fromLayoutFrame([0, 0, 0])).toEqual([0, 0, 0]);
   });
 
+  it('stretches the last (depth) axis by a factor within the asked range, invertibly; without the option the animal is unchanged', () => {
+    const plain = generateAnimal(layout3, createRng(26), 'a');
+    expect(plain.axialScale).toBe(1);
+    expect(generateAnimal(layout3, createRng(26), 'a', { axialScaleRange: 0 }).sample).toEqual(plain.sample);
+    // No rotation, scale, bend or translation: the map is diag(1, 1, s) exactly.
+    const flat = generateAnimal(layout3, createRng(27), 'a', { rotate: false, scaleRange: 0, translate: 0, bend: 0, axialScaleRange: 0.2 });
+    expect(Math.abs(flat.axialScale - 1)).toBeLessThanOrEqual(0.2);
+    expect(flat.axialScale).not.toBe(1);
+    expect(flat.fromLayoutFrame([3, -2, 5])).toEqual([3, -2, 5 * flat.axialScale]);
+    // With everything else on, toLayoutFrame still inverts the deformation.
+    const full = generateAnimal(layout3, createRng(28), 'a', { bend: 4, axialScaleRange: 0.2 });
+    for (const p of layout3.positions.slice(0, 20)) full.toLayoutFrame(full.fromLayoutFrame(p)).forEach((v, k) => expect(v).toBeCloseTo(p[k], 9));
+    // In 2-D the second axis is the one stretched.
+    const flat2 = generateAnimal(layout2, createRng(29), 'a', { rotate: false, scaleRange: 0, translate: 0, bend: 0, axialScaleRange: 0.2 });
+    expect(flat2.fromLayoutFrame([3, -2])).toEqual([3, -2 * flat2.axialScale]);
+    expect(() => generateAnimal(layout3, createRng(1), 'a', { axialScaleRange: 1 })).toThrow('generateAnimal: axialScaleRange must be in [0, 1), got 1');
+  });
+
   it('numbers rows 2..n+1 and, without shuffling, lists the true cells before the outliers', () => {
     const animal = generateAnimal(layout3, createRng(26), 'a7', { shuffle: false });
     const n = animal.sample.coords.length;

@@ -92,6 +92,14 @@ export interface AnimalOptions {
    * missingFraction lies beyond it; scattered outliers are unaffected.
    */
   cropFraction?: number;
+  /**
+   * Largest error of the axial scale (default 0): the sample's last axis
+   * (the imaging axis, z in 3-D) is stretched by a factor drawn uniformly in
+   * [1 - a, 1 + a] after the animal is turned into the sample frame, as when
+   * a refractive-index mismatch stretches or squashes depth. With 0 no
+   * number is drawn for it, so animals are the same as without the option.
+   */
+  axialScaleRange?: number;
 }
 
 export interface Animal {
@@ -101,9 +109,11 @@ export interface Animal {
   truth: (string | null)[];
   /** Layout index of each point's true cell, null for outliers (parallel to `truth`). */
   truthIndex: (number | null)[];
-  /** Exact inverse of this animal's deformation (translation, rotation, scale, bend); jitter excluded. */
+  /** Exact inverse of this animal's deformation (translation, axial stretch, rotation, scale, bend); jitter excluded. */
   toLayoutFrame: (p: readonly number[]) => number[];
   scale: number;
+  /** Stretch of the sample's last axis (1 without axialScaleRange); the map to the layout frame has Jacobian 1 / (scale^d axialScale). */
+  axialScale: number;
   rotation: number[][];
   /** Translation t (um). */
   translation: number[];
@@ -377,6 +387,7 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
   const wrongFraction = options.wrongLabelFraction ?? 0;
   const jitterScale = options.jitterScale ?? 1;
   const cropFraction = options.cropFraction ?? 0;
+  const axialRange = options.axialScaleRange ?? 0;
   for (const [name, v] of [
     ['missingFraction', missingFraction],
     ['cropFraction', cropFraction],
@@ -389,6 +400,8 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
     throw new RangeError(`generateAnimal: outlierFraction must be in [0, 1), got ${outlierFraction}`);
   if (!(scaleRange >= 0 && scaleRange < 1))
     throw new RangeError(`generateAnimal: scaleRange must be in [0, 1), got ${scaleRange}`);
+  if (!(axialRange >= 0 && axialRange < 1))
+    throw new RangeError(`generateAnimal: axialScaleRange must be in [0, 1), got ${axialRange}`);
   for (const [name, v] of [
     ['bend', bendMax],
     ['translate', translateMax],
@@ -409,15 +422,18 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
   }
   const xMax = Math.max(...layout.positions.map((p) => Math.abs(p[0])));
   const bendShift = (x: number): number => bendAmplitude * (x / xMax) ** 2;
+  // Drawn only when asked for, so that animals without the option are the same as before it existed.
+  const axialScale = axialRange > 0 ? uniform(rng, 1 - axialRange, 1 + axialRange) : 1;
+  const axialOf = (k: number): number => (k === dim - 1 ? axialScale : 1);
   const fromLayoutFrame = (p: readonly number[]): number[] => {
     const f = bendShift(p[0]);
     const bent = p.map((v, k) => v + f * bendDirection[k]);
-    return matVec(rotation, bent).map((v, k) => scale * v + translation[k]);
+    return matVec(rotation, bent).map((v, k) => scale * v * axialOf(k) + translation[k]);
   };
   const toLayoutFrame = (q: readonly number[]): number[] => {
     const unrotated = matTVec(
       rotation,
-      q.map((v, k) => v - translation[k]),
+      q.map((v, k) => (v - translation[k]) / axialOf(k)),
     ).map((v) => v / scale);
     const f = bendShift(unrotated[0]);
     return unrotated.map((v, k) => v - f * bendDirection[k]);
@@ -564,6 +580,7 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
     toLayoutFrame,
     fromLayoutFrame,
     scale,
+    axialScale,
     rotation,
     translation,
     bendAmplitude,
