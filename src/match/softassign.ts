@@ -74,9 +74,9 @@ export interface PairGains {
  * grown before a voxel's list is scanned, never inside the scan (on a
  * 190-cell template about 8-13% less time per call than reading the two
  * separate arrays with a check per pair, same output bit for bit; best of
- * 30 rounds of 100 calls, a scratch microbenchmark, December 2026). With `scratch`, the returned arrays are views
- * of buffers reused by the next call made with `scratch` (for callers that
- * consume the table at once).
+ * 30 rounds of 100 calls, a scratch microbenchmark, December 2026). With
+ * `scratch`, the returned arrays are views of buffers reused by the next
+ * call made with `scratch` (for callers that consume the table at once).
  */
 export function pairGains(
   model: CellModel,

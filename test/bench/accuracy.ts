@@ -11,7 +11,8 @@
  * cells and the 25 training animals, --dim 2 gives flat animals, --bend the
  * largest bend, --crop cuts that share of each test animal's cells off by a
  * plane, --axial stretches the depth axis of training and test animals by a
- * factor within 1 +- F); the ganglia case packs the same number of
+ * factor within 1 +- F: it draws one more number per animal, so compare
+ * with --axial 0.001, the same animals nearly unstretched); the ganglia case packs the same number of
  * cells into clusters with gaps between them (as real heads group nuclei in
  * ganglia), at the default jitter. The template is built by buildTemplate
  * (src/template) from 25 training animals labelled at 60%.
@@ -226,7 +227,7 @@ function runCase(spec: CaseSpec): void {
       axialScaleRange: axialRange,
     }),
   );
-  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing${cropFraction > 0 ? ` and ${Math.round(cropFraction * 100)}% of the rest cut off by a plane` : ''}, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%${axialRange > 0 ? `, depth stretched by up to +-${Math.round(axialRange * 100)}%` : ''}`);
+  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing${cropFraction > 0 ? ` and ${Math.round(cropFraction * 100)}% of the rest cut off by a plane` : ''}, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%${axialRange > 0 ? `, depth stretched by up to +-${Number((axialRange * 100).toPrecision(2))}%` : ''}`);
   console.log(`template: buildTemplate on ${trainingCount} animals labelled at 60% (${template.cells.length} cells, ${template.members.length} members); ${animals.length} test animals; max trials ${maxTrials ?? 'default'}`);
   console.log(HEADER);
 
