@@ -129,7 +129,7 @@ export function pairGains(
     if (positiveOnly) lim = Math.min(lim, cellBase[k] / half);
     reach2[k] = lim < 0 ? -1 : lim * maxStd[k] * maxStd[k] * (1 + 1e-9) + 1e-12;
   }
-  const mp = model.meanPrecision;
+  const mp = model.meanPrecision, stride = d + d * d;
   const origin = grid.origin, voxel = grid.voxel, shape = grid.shape;
   for (let i = 0; i < n; i++) {
     const y = mapped[i];
@@ -152,44 +152,34 @@ export function pairGains(
           scratchDists = nd;
         }
       }
-      if (d === 3) {
-        const y0 = y[0], y1 = y[1], y2 = y[2];
-        for (let c = from; c < to; c++) {
-          const k = list[c];
-          const o = k * 12;
+      const y0 = y[0], y1 = d > 1 ? y[1] : 0, y2 = d > 2 ? y[2] : 0;
+      for (let c = from; c < to; c++) {
+        const k = list[c];
+        let e2: number;
+        if (d === 3) {
+          const o = k * stride;
           const p0 = y0 - mp[o], p1 = y1 - mp[o + 1], p2 = y2 - mp[o + 2];
           if (p0 * p0 + p1 * p1 + p2 * p2 > reach2[k]) continue;
-          const e2 =
+          e2 =
             p0 * (mp[o + 3] * p0 + mp[o + 4] * p1 + mp[o + 5] * p2) +
             p1 * (mp[o + 6] * p0 + mp[o + 7] * p1 + mp[o + 8] * p2) +
             p2 * (mp[o + 9] * p0 + mp[o + 10] * p1 + mp[o + 11] * p2);
-          if (e2 > limit) continue;
-          const gain = cellBase[k] - half * e2;
-          if (positiveOnly && !(gain > 0)) continue;
-          cells[used] = k;
-          gains[used] = gain;
-          dists[used] = e2;
-          used++;
-        }
-      } else {
-        const stride = d + d * d;
-        for (let c = from; c < to; c++) {
-          const k = list[c];
+        } else {
+          e2 = 0;
           const o = k * stride;
-          let e2 = 0;
           for (let a = 0; a < d; a++) {
             let r = 0;
             for (let b = 0; b < d; b++) r += mp[o + d + a * d + b] * (y[b] - mp[o + b]);
             e2 += (y[a] - mp[o + a]) * r;
           }
-          if (e2 > limit) continue;
-          const gain = cellBase[k] - half * e2;
-          if (positiveOnly && !(gain > 0)) continue;
-          cells[used] = k;
-          gains[used] = gain;
-          dists[used] = e2;
-          used++;
         }
+        if (e2 > limit) continue;
+        const gain = cellBase[k] - half * e2;
+        if (positiveOnly && !(gain > 0)) continue;
+        cells[used] = k;
+        gains[used] = gain;
+        dists[used] = e2;
+        used++;
       }
     }
     rowStart[i + 1] = used;
