@@ -36,7 +36,7 @@ import {
   sampleIdFromPath,
   writeFileAtomic,
 } from '../io/index.js';
-import { DEFAULT_HIT_RADIUS, type MatchOptions } from '../match/match-sample.js';
+import { DEFAULT_HIT_RADIUS, POSE_MARGIN_SETTLED, type MatchOptions } from '../match/match-sample.js';
 import { matchSampleStream, type SampleJob, type TimedResult } from '../match/parallel.js';
 import { closeCalls, MATCH_REPORT_FIGURES, matchedFigureInput, mergeCloseCalls, renderMatchHtml, type CloseCall } from '../report/match-report.js';
 import type { MatchedFigureInput } from '../report/svg/matched-figure.js';
@@ -81,6 +81,8 @@ export interface MatchSampleSummary {
   /** Crowded points left out of the pose search (denser than any part of the template: likely a clump of outliers). */
   readonly crowded: number | null;
   readonly nonRigid: boolean | null;
+  /** How far the chosen pose mode leads the best other one, nats (MatchResult.poseMargin); null when none or the sample failed. */
+  readonly poseMargin: number | null;
   /** Wall time of matching, seconds; absent under --no-timestamp (it differs from run to run). */
   readonly seconds?: number;
   /** Why the sample could not be read or matched (file:row:column: reason for bad input), or null. */
@@ -259,6 +261,7 @@ export async function runMatch(
       stopReason: null,
       crowded: null,
       nonRigid: null,
+      poseMargin: null,
       ...(timestamp ? { seconds } : {}),
       error,
     };
@@ -318,6 +321,7 @@ export async function runMatch(
       stopReason: r.stopReason,
       crowded: r.crowded,
       nonRigid: r.nonRigid,
+      poseMargin: r.poseMargin,
       ...(timestamp ? { seconds: t.seconds } : {}),
       error: null,
     };
@@ -386,6 +390,12 @@ function renderText(s: MatchSummary, dir: string): string {
   if (crowded.length > 0) {
     lines.push(
       `crowded points left out of the pose search (packed more densely than any part of the template, most likely a clump of outliers; they still get proposals): ${crowded.map((e) => `${e.id} ${e.crowded}`).join(', ')}`,
+    );
+  }
+  const unsettled = s.samples.filter((e) => e.poseMargin !== null && e.poseMargin < POSE_MARGIN_SETTLED);
+  if (unsettled.length > 0) {
+    lines.push(
+      `orientation not settled (another pose scores within ${POSE_MARGIN_SETTLED} nats; give a few labels in the sample file and match again): ${unsettled.map((e) => `${e.id} ${(e.poseMargin as number).toFixed(1)}`).join(', ')}`,
     );
   }
   lines.push('Labels are proposals to verify, not identifications.');

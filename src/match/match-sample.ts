@@ -119,7 +119,26 @@ export interface MatchResult {
   /** Crowded points left out of the pose search (crowding.ts); 0 when none were. */
   crowded: number;
   nonRigid: boolean;
+  /**
+   * How far the chosen pose mode leads the best other one, in nats: its
+   * one-to-one matching gain minus that of the best distinct pose mode (more
+   * than two cell spacings away), both at the end of the screening. Below
+   * POSE_MARGIN_SETTLED the sample's orientation is not settled by its
+   * positions (docs/algorithms.md, "Pose margin"). Null when no other mode
+   * was screened (the icp and cpd methods; a search that found one mode).
+   */
+  poseMargin: number | null;
 }
+
+/**
+ * Pose margins below this many nats mean an unsettled orientation. Chosen on
+ * the accuracy suite (docs/algorithms.md, "Pose margin"): every animal
+ * whose pose mode was in doubt (cells packed uniformly at full jitter) had a
+ * margin within +-8 nats, and every animal of the cases where the right mode
+ * was found lay beyond 10. The matching gain overstates certainty, so the
+ * margin is not a probability.
+ */
+export const POSE_MARGIN_SETTLED = 10;
 
 /** Whether the non-rigid correction is on by default (chosen on the accuracy suite; see docs/algorithms.md). */
 export const DEFAULT_NON_RIGID = false;
@@ -419,7 +438,8 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     if (f === winnerIndex) continue;
     others.push({ transform: f >= 0 ? refined[f].transform : m.transform, gain: m.gain });
   }
-  return finish(finalPose, others, winnerScreenGain);
+  const poseMargin = others.length > 0 ? winnerScreenGain - Math.max(...others.map((m) => m.gain)) : null;
+  return finish(finalPose, others, winnerScreenGain, poseMargin);
 
   /**
    * Stages 3 and 4 from the chosen affine pose. `otherModes` are competing
@@ -428,7 +448,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
    * (each mode's evidence approximated by its best matching, all compared at
    * the same screening stage).
    */
-  function finish(finalPose: Transform, otherModes: readonly { transform: Transform; gain: number }[] = [], bestGain = 0): MatchResult {
+  function finish(finalPose: Transform, otherModes: readonly { transform: Transform; gain: number }[] = [], bestGain = 0, poseMargin: number | null = null): MatchResult {
     // rho and Lambda for the final posterior, from the chosen pose.
     params = estimateParameters(model, prepared.pairGrid, mapPoints(finalPose, points), jacobianOf(finalPose), params);
     const transform = finalPose;
@@ -493,6 +513,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       stopReason,
       crowded: uncrowded ? n - uncrowded.points.length : 0,
       nonRigid: nonRigidApplied,
+      poseMargin,
     };
 
   }

@@ -1,13 +1,13 @@
 /**
  * The HTML report of `cairn match`: the cautions first, a summary of the
- * batch (samples, points, proposals, mean confidence, stop reasons), a table
- * of every sample, the closest calls (the proposals whose runner-up label is
+ * batch (samples, points, proposals, mean confidence, stop reasons, samples
+ * whose orientation is not settled), a table of every sample, the closest calls (the proposals whose runner-up label is
  * nearly as probable, to verify first), and the matched-sample figure for the
  * first MATCH_REPORT_FIGURES samples. Built from compact per-sample rows so that a
  * streaming batch keeps only what the page needs.
  */
 import { applyToPoint } from '../geometry/transform.js';
-import type { MatchResult } from '../match/match-sample.js';
+import { POSE_MARGIN_SETTLED, type MatchResult } from '../match/match-sample.js';
 import type { Sample, Template } from '../types.js';
 import {
   paragraph,
@@ -77,6 +77,8 @@ export interface MatchReportRow {
   readonly proposed: number;
   readonly meanConfidence: number | null;
   readonly stopReason: string | null;
+  /** MatchResult.poseMargin (nats); null when no other pose mode was screened or the sample failed. */
+  readonly poseMargin: number | null;
   readonly error: string | null;
 }
 
@@ -135,6 +137,7 @@ export function buildMatchReport(input: MatchReportInput): ReportPage {
     { term: 'proposed labels', value: `${proposed}${points ? ` (${fixed((100 * proposed) / points, 1)}% of points)` : ''}` },
     { term: 'mean confidence of proposals', value: proposed ? fixed(confidenceSum / proposed, 3) : '–' },
     { term: 'pose search stopped', value: stopText || '–' },
+    { term: `orientation not settled (pose margin < ${POSE_MARGIN_SETTLED} nats)`, value: unsettledText(matched) },
     { term: 'method, hit radius, seed', value: `${input.method}, ${input.hitRadius}, ${input.seed}` },
   ];
   const shown = input.figures.slice(0, MATCH_REPORT_FIGURES);
@@ -162,9 +165,15 @@ export function buildMatchReport(input: MatchReportInput): ReportPage {
             { heading: 'proposed', numeric: true, digits: 0, description: 'points given a label' },
             { heading: 'mean confidence', numeric: true, digits: 3, description: 'mean posterior probability of the proposed labels' },
             { heading: 'stop reason', numeric: false, description: 'why the pose search stopped' },
+            {
+              heading: 'pose margin',
+              numeric: true,
+              digits: 1,
+              description: `nats by which the chosen pose leads the best other pose; below ${POSE_MARGIN_SETTLED} the orientation is not settled: give a few labels and match again`,
+            },
             { heading: 'error', numeric: false },
           ],
-          rows: rows.map((r) => [r.id, r.points, r.error ? null : r.proposed, r.meanConfidence, r.stopReason, r.error]),
+          rows: rows.map((r) => [r.id, r.points, r.error ? null : r.proposed, r.meanConfidence, r.stopReason, r.poseMargin, r.error]),
         }),
     },
     ...(input.closeCalls !== undefined
@@ -201,6 +210,14 @@ export function buildMatchReport(input: MatchReportInput): ReportPage {
     sections,
     footer: input.toolLine,
   };
+}
+
+/** The summary's line on unsettled orientations: how many samples, and the first few of them. */
+function unsettledText(matched: readonly MatchReportRow[]): string {
+  const ids = matched.filter((r) => r.poseMargin !== null && r.poseMargin < POSE_MARGIN_SETTLED).map((r) => r.id);
+  if (ids.length === 0) return 'none';
+  const shown = ids.slice(0, 5).join(', ');
+  return `${ids.length} of ${matched.length}: ${shown}${ids.length > 5 ? ', …' : ''} (give a few labels and match again)`;
 }
 
 /** The self-contained HTML page of a match run. */

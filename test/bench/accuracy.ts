@@ -27,7 +27,9 @@
  *   confidence >= 0.9 the fraction correct, and the expected calibration error
  *   (10 bins; Guo et al. 2017),
  * and for ransac: accuracy with 0, 4, 8 and 16 given labels (scored on the
- * other true cells), and with the non-rigid correction on and off. A first
+ * other true cells), and with the non-rigid correction on and off; and the
+ * animals whose pose margin (MatchResult.poseMargin) is below
+ * POSE_MARGIN_SETTLED against the rest, with the accuracy ratio of each group. A first
  * row gives the accuracy when the affine pose is fitted on the true
  * correspondences (what a perfect search could reach with this template).
  * Label proposals are proposals to verify, and these are synthetic animals.
@@ -35,7 +37,7 @@
 import { applyToPoint, fitAffine, fitSimilarity, invertTransform, transformScale } from '../../src/geometry/index.js';
 import { calibrationTable, expectedCalibrationError, type ScoredPoint } from '../../src/evaluate/metrics.js';
 import { sampleSeed } from '../../src/evaluate/cross-validate.js';
-import { labelMappedPoints, matchSample, prepareTemplate, type MatchResult } from '../../src/match/match-sample.js';
+import { labelMappedPoints, matchSample, POSE_MARGIN_SETTLED, prepareTemplate, type MatchResult } from '../../src/match/match-sample.js';
 import { createRng, shuffle } from '../../src/random.js';
 import { buildTemplate } from '../../src/template/index.js';
 import type { Sample, Template } from '../../src/types.js';
@@ -96,10 +98,12 @@ interface Tally {
   seconds: number;
   matched: number;
   scored: ScoredPoint[];
+  /** Per animal: the pose margin (MatchResult.poseMargin), correct labels and the oracle's. */
+  margins: { margin: number | null; correct: number; oracle: number }[];
 }
 
 function emptyTally(): Tally {
-  return { trueCells: 0, correct: 0, unlabelled: 0, outliers: 0, outliersLabelled: 0, oracleCorrect: 0, seconds: 0, matched: 0, scored: [] };
+  return { trueCells: 0, correct: 0, unlabelled: 0, outliers: 0, outliersLabelled: 0, oracleCorrect: 0, seconds: 0, matched: 0, scored: [], margins: [] };
 }
 
 function score(t: Tally, animal: Animal, proposals: MatchResult['proposals'], skip: ReadonlySet<number> = new Set()): void {
@@ -159,6 +163,23 @@ function truePoseCorrect(template: Template, animal: Animal, sample: Sample, ski
 
 function pct(x: number): string {
   return `${(100 * x).toFixed(1)}%`;
+}
+
+/**
+ * The animals whose pose margin is below POSE_MARGIN_SETTLED (orientation not
+ * settled) against the rest: how many, the accuracy ratio of each group and
+ * the range of margins in each.
+ */
+function marginReport(t: Tally): string {
+  const groups = [t.margins.filter((m) => m.margin !== null && m.margin < POSE_MARGIN_SETTLED), t.margins.filter((m) => m.margin === null || m.margin >= POSE_MARGIN_SETTLED)];
+  const describe = (g: typeof t.margins): string => {
+    if (g.length === 0) return 'none';
+    const c = g.reduce((a, m) => a + m.correct, 0), o = g.reduce((a, m) => a + m.oracle, 0);
+    const ms = g.map((m) => m.margin).filter((m): m is number => m !== null);
+    const range = ms.length ? `, margins ${Math.min(...ms).toFixed(1)} to ${Math.max(...ms).toFixed(1)}` : '';
+    return `${g.length} animals, ratio ${(c / Math.max(1, o)).toFixed(3)}${range}`;
+  };
+  return `  pose margin < ${POSE_MARGIN_SETTLED} nats (orientation not settled): ${describe(groups[0])}; the rest: ${describe(groups[1])}`;
 }
 
 function report(name: string, t: Tally): string {
@@ -278,12 +299,14 @@ function runCase(spec: CaseSpec): void {
       const before = { correct: tally.correct, oracle: tally.oracleCorrect };
       score(tally, animal, proposals, given);
       tally.oracleCorrect += oracleCorrect(template, layout, layoutToTemplate, animal, sample, given);
+      tally.margins.push({ margin: result?.poseMargin ?? null, correct: tally.correct - before.correct, oracle: tally.oracleCorrect - before.oracle });
       if (perAnimal) {
         const c = tally.correct - before.correct, o = tally.oracleCorrect - before.oracle;
         console.log(`  ${v.name}: ${animal.sample.id} ${c} correct, oracle ${o}, ratio ${(c / Math.max(1, o)).toFixed(3)}, ${result?.trials ?? 0} trials (${result?.stopReason ?? 'failed'})`);
       }
     }
     console.log(report(v.name, tally));
+    if (v.method === 'ransac') console.log(marginReport(tally));
     if (v.name === 'ransac') {
       const bins = calibrationTable(tally.scored).filter((b) => b.count > 0);
       console.log(`  calibration (ransac): ${bins.map((b) => `[${b.lower.toFixed(1)},${b.upper.toFixed(1)}) n=${b.count} conf ${b.meanConfidence.toFixed(2)} acc ${b.accuracy.toFixed(2)}`).join('; ')}`);

@@ -64,7 +64,7 @@ function matchHtml(): string {
       name: `row ${i + 2}`,
     })),
   }));
-  const rows = figures.map((f) => ({ id: f.sampleId, source: `${f.sampleId}.csv`, points: 30, proposed: 26, meanConfidence: 0.7, stopReason: 'converged', error: null }));
+  const rows = figures.map((f) => ({ id: f.sampleId, source: `${f.sampleId}.csv`, points: 30, proposed: 26, meanConfidence: 0.7, stopReason: 'converged', poseMargin: 42, error: null }));
   return renderMatchHtml({ template, templatePath: 'glimmerkin-crown.json', method: 'ransac', hitRadius: 3, seed: 1, rows, figures });
 }
 

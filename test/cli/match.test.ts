@@ -91,6 +91,27 @@ describe('cairn match', () => {
     expect(r.stdout).not.toContain('probe0 0');
   });
 
+  it('reports the pose margin in summary.json and names samples whose orientation is not settled', async () => {
+    // A uniformly packed 190-cell head at full jitter (sd 1-3 um): its roll is not settled by the
+    // positions (the same head as in test/match/match-sample.test.ts, "pose margin").
+    const rng = createRng(32);
+    const layout = generateLayout(rng, { cells: 190, dim: 3, arrangement: 'uniform' });
+    const template = templateFromTraining(layout, rng, { members: 25 });
+    const tfile = join(dir, 'template-uniform.json');
+    writeFileSync(tfile, serializeTemplate(template));
+    const a = generateAnimal(layout, rng, 'round-head', { outlierFraction: 0.2, missingFraction: 0.15 });
+    const file = join(dir, 'round-head.csv');
+    writeFileSync(file, formatCsv(['x', 'y', 'z'], a.sample.coords.map((p) => [...p])));
+    const out = join(dir, 'out-margin');
+    const r = await run('match', tfile, file, '-o', out, '--seed', '1');
+    expect(r.code).toBe(0);
+    const [entry] = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')).samples as { poseMargin: number }[];
+    expect(typeof entry.poseMargin).toBe('number');
+    expect(entry.poseMargin).toBeLessThan(10);
+    expect(r.stdout).toContain('orientation not settled');
+    expect(r.stdout).toContain(`round-head ${entry.poseMargin.toFixed(1)}`);
+  });
+
   it('gives byte-identical CSVs with --jobs 2 and --jobs 1', async () => {
     const a = join(dir, 'serial');
     const b = join(dir, 'parallel');

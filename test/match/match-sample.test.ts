@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { UsageError } from '../../src/errors.js';
-import { labelMappedPoints, matchSample } from '../../src/match/match-sample.js';
+import { labelMappedPoints, matchSample, POSE_MARGIN_SETTLED } from '../../src/match/match-sample.js';
 import { createRng, randomRotation } from '../../src/random.js';
 import type { Sample, Template } from '../../src/types.js';
 import { generateAnimal, generateLayout } from '../support/animals.js';
@@ -147,6 +147,36 @@ describe('matchSample on synthetic animals (smoke case)', () => {
       if (p.label === b.proposals[i].label) same++;
     });
     expect(same / a.proposals.length).toBeGreaterThanOrEqual(0.95);
+  });
+});
+
+describe('pose margin (is the orientation settled?)', () => {
+  // 190 cells 2 um apart at the accuracy suite's default jitter (sd 1-3 um), 20% outliers, 15% missing.
+  // Grouped in ganglia, the head's orientation shows in its cell positions; packed uniformly through a
+  // nearly round head, it does not (docs/algorithms.md, "Pose margin").
+  const setting = { outlierFraction: 0.2, missingFraction: 0.15 };
+  const headOf = (arrangement: 'ganglia' | 'uniform', seed: number) => {
+    const rng = createRng(seed);
+    const layout = generateLayout(rng, { cells: 190, dim: 3, arrangement });
+    const template = templateFromTraining(layout, rng, { members: 25 });
+    return { template, animal: generateAnimal(layout, rng, `${arrangement}-head`, setting) };
+  };
+
+  it('is settled for a head in ganglia and not for a uniformly packed one', () => {
+    const ganglia = headOf('ganglia', 31);
+    const g = matchSample(ganglia.template, ganglia.animal.sample, { rng: createRng(1) });
+    expect(g.poseMargin).not.toBeNull();
+    expect(g.poseMargin as number).toBeGreaterThanOrEqual(POSE_MARGIN_SETTLED);
+
+    const uniform = headOf('uniform', 32);
+    const u = matchSample(uniform.template, uniform.animal.sample, { rng: createRng(1) });
+    expect(u.poseMargin).not.toBeNull();
+    expect(Math.abs(u.poseMargin as number)).toBeLessThan(POSE_MARGIN_SETTLED);
+  });
+
+  it('is null for the baselines, which screen no other pose', () => {
+    const { template, animal } = headOf('ganglia', 31);
+    expect(matchSample(template, animal.sample, { rng: createRng(1), method: 'icp' }).poseMargin).toBeNull();
   });
 });
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import type { MatchResult } from '../../src/match/match-sample.js';
+import { POSE_MARGIN_SETTLED, type MatchResult } from '../../src/match/match-sample.js';
 import {
   buildMatchReport,
   closeCalls,
@@ -42,13 +42,14 @@ function result(labels: (string | null)[], confidences: number[]): MatchResult {
   };
 }
 
-const row = (id: string, proposed: number, meanConfidence: number | null, error: string | null = null): MatchReportRow => ({
+const row = (id: string, proposed: number, meanConfidence: number | null, error: string | null = null, poseMargin: number | null = error ? null : 50): MatchReportRow => ({
   id,
   source: `${id}.csv`,
   points: 10,
   proposed,
   meanConfidence,
   stopReason: error ? null : 'converged',
+  poseMargin,
   error,
 });
 
@@ -117,6 +118,19 @@ describe('buildMatchReport', () => {
     // (8 x 0.9 + 2 x 0.4) / 10 = 0.8
     expect(value('mean confidence of proposals')).toBe('0.800');
     expect(value('pose search stopped')).toBe('converged (2)');
+    expect(value(`orientation not settled (pose margin < ${POSE_MARGIN_SETTLED} nats)`)).toBe('none');
+  });
+
+  it('names the samples whose orientation is not settled and shows every pose margin in the table', () => {
+    const rows = [row('a', 8, 0.9, null, 3.2), row('b', 2, 0.4, null, 40), row('c', 5, 0.3, null, -1.5), row('d', 5, 0.3, null, null), row('e', 0, null, 'e.csv: bad')];
+    const page = buildMatchReport({ ...base, rows, figures: [] });
+    const value = page.summary.find((s) => s.term === `orientation not settled (pose margin < ${POSE_MARGIN_SETTLED} nats)`)?.value;
+    // A margin of null (no other pose screened) is not counted; the failed sample is not among the matched.
+    expect(value).toBe('2 of 4: a, c (give a few labels and match again)');
+    const html = page.sections[0].html;
+    expect(html).toContain('pose margin');
+    expect(html).toContain('3.2');
+    expect(html).toContain('-1.5');
   });
 
   it(`draws at most ${MATCH_REPORT_FIGURES} figures and says how many samples were matched in all`, () => {
