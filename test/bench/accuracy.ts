@@ -302,7 +302,7 @@ function runCase(spec: CaseSpec): void {
       tally.margins.push({ margin: result?.poseMargin ?? null, correct: tally.correct - before.correct, oracle: tally.oracleCorrect - before.oracle });
       if (perAnimal) {
         const c = tally.correct - before.correct, o = tally.oracleCorrect - before.oracle;
-        console.log(`  ${v.name}: ${animal.sample.id} ${c} correct, oracle ${o}, ratio ${(c / Math.max(1, o)).toFixed(3)}, ${result?.trials ?? 0} trials (${result?.stopReason ?? 'failed'})`);
+        console.log(`  ${v.name}: ${animal.sample.id} ${c} correct, oracle ${o}, ratio ${(c / Math.max(1, o)).toFixed(3)}, ${result?.trials ?? 0} trials (${result?.stopReason ?? 'failed'}), pose margin ${result?.poseMargin == null ? '-' : result.poseMargin.toFixed(1)}`);
       }
     }
     console.log(report(v.name, tally));
