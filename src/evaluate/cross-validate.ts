@@ -30,6 +30,8 @@ export interface HeldOutResult {
   readonly correct: number;
   /** Why the sample could not be scored (the fold's template could not be built), or null. */
   readonly skipped: string | null;
+  /** The match's pose margin in nats (MatchResult.poseMargin); null when none or skipped. */
+  readonly poseMargin: number | null;
 }
 
 export interface CrossValidationResult {
@@ -92,7 +94,7 @@ export function crossValidate(samples: readonly Sample[], options: CrossValidati
     for (const sample of heldOut) {
       const labelled = sample.labels.filter((l) => l !== null).length;
       if (!template || failure) {
-        results.push({ sample: sample.id, fold: f, labelled, correct: 0, skipped: failure });
+        results.push({ sample: sample.id, fold: f, labelled, correct: 0, skipped: failure, poseMargin: null });
         continue;
       }
       const known = new Set(template.cells.map((c) => c.label));
@@ -113,7 +115,7 @@ export function crossValidate(samples: readonly Sample[], options: CrossValidati
           alternatives: p.alternatives.map((a) => a.label),
         });
       });
-      results.push({ sample: sample.id, fold: f, labelled, correct, skipped: null });
+      results.push({ sample: sample.id, fold: f, labelled, correct, skipped: null, poseMargin: result.poseMargin });
       options.onProgress?.(++done, samples.length, sample.id);
     }
   }

@@ -1,9 +1,10 @@
 /**
  * The HTML report of `cairn evaluate`: cross-validated accuracy, calibration,
- * per-cell and per-sample tables and the most confused pairs, with the
- * cautions first.
+ * per-cell and per-sample tables (with each held-out sample's pose margin)
+ * and the most confused pairs, with the cautions first.
  */
 import type { CrossValidationResult } from '../evaluate/cross-validate.js';
+import { POSE_MARGIN_SETTLED } from '../match/match-sample.js';
 import { measuredAccuracyFromReport, paragraph, proposalCautions, renderFigure, renderHtmlReport, renderTable, type ReportPage } from './html.js';
 import { fixed } from './svg/common.js';
 import { reliabilityFigureSvg } from './svg/reliability-figure.js';
@@ -18,6 +19,7 @@ const pct = (v: number) => `${fixed(100 * v, 1)}%`;
 export function buildEvaluateReport(result: CrossValidationResult, options: { sources?: readonly string[]; toolLine?: string } = {}): ReportPage {
   const r = result.report;
   const scheme = crossValidationScheme(result);
+  const marginOf = new Map(result.samples.map((s) => [s.sample, s.poseMargin]));
   const sections = [
     {
       heading: 'Calibration',
@@ -58,8 +60,14 @@ export function buildEvaluateReport(result: CrossValidationResult, options: { so
           { heading: 'labelled points', numeric: true, digits: 0 },
           { heading: 'correct', numeric: true, digits: 0 },
           { heading: 'accuracy', numeric: true, digits: 3 },
+          {
+            heading: 'pose margin',
+            numeric: true,
+            digits: 1,
+            description: `nats by which the chosen pose led the best other pose when the sample was matched; below ${POSE_MARGIN_SETTLED} its orientation was not settled`,
+          },
         ],
-        rows: r.perSample.map((s) => [s.key, s.points, s.correct, s.accuracy]),
+        rows: r.perSample.map((s) => [s.key, s.points, s.correct, s.accuracy, marginOf.get(s.key) ?? null]),
       }),
     },
     {

@@ -1,6 +1,9 @@
 import { describe, expect, it } from 'vitest';
 import { assignFolds, crossValidate, hideLabels, sampleSeed } from '../../src/evaluate/cross-validate.js';
+import { renderEvaluateText } from '../../src/cli/evaluate.js';
+import { POSE_MARGIN_SETTLED } from '../../src/match/match-sample.js';
 import { createRng } from '../../src/random.js';
+import { buildEvaluateReport } from '../../src/report/evaluate-report.js';
 import { generateAnimal, generateLayout } from '../support/animals.js';
 
 // A small, well-separated invented head: 40 cells 4 um apart with 0.4-0.8 um jitter,
@@ -52,6 +55,23 @@ describe('crossValidate', () => {
     expect(a.report.accuracy).toBeGreaterThan(0.8);
     const b = crossValidate(samples, { seed: 7 });
     expect(b.report).toEqual(a.report);
+    expect(b.samples).toEqual(a.samples);
+  });
+
+  it("keeps each held-out sample's pose margin, and the text and HTML reports show it", () => {
+    const result = crossValidate(samples, { seed: 7 });
+    for (const s of result.samples) expect(typeof s.poseMargin).toBe('number');
+    // A well-separated head: its orientation is settled, so no sample is named.
+    expect(renderEvaluateText(result, null)).not.toContain('orientation not settled');
+    const first = result.samples[0];
+    const doubtful = { ...result, samples: [{ ...first, poseMargin: 3.25 }, ...result.samples.slice(1)] };
+    const accuracy = result.report.perSample.find((p) => p.key === first.sample)!.accuracy;
+    expect(renderEvaluateText(doubtful, null)).toContain(
+      `orientation not settled (pose margin below ${POSE_MARGIN_SETTLED} nats) when matched: ${first.sample} 3.3 (accuracy ${(100 * accuracy).toFixed(1)}%)`,
+    );
+    const table = buildEvaluateReport(doubtful).sections.find((x) => x.heading === 'Accuracy per sample')!.html;
+    expect(table).toContain('pose margin');
+    expect(table).toContain('3.3');
   });
 
   it('needs at least three samples', () => {
