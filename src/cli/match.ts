@@ -1,6 +1,6 @@
 /**
  * `cairn match TEMPLATE SAMPLES... -o DIR [--method ransac|icp|cpd] [--seed N]
- *  [--hit-radius R|auto] [--jobs N] [--max-trials N] [--nonrigid | --no-nonrigid]
+ *  [--hit-radius R|auto] [--jobs N] [--max-trials N] [--nonrigid | --no-nonrigid] [--no-bend]
  *  [--abstain-below P] [--alternatives N] [--force] [--json] [--voxel-size X,Y[,Z]] [--no-timestamp]
  *  [--html FILE [--accuracy-from EVAL.json]]`:
  * propose labels for samples against a template. Writes DIR/<id>.csv per
@@ -53,6 +53,8 @@ export interface MatchCommandOptions {
   readonly jobs: number;
   readonly maxTrials?: number;
   readonly nonrigid?: boolean;
+  /** false under --no-bend. */
+  readonly bend?: boolean;
   readonly abstainBelow?: number;
   /** Other labels per point in the CSVs (0-2; default 0). */
   readonly alternatives?: number;
@@ -81,6 +83,8 @@ export interface MatchSampleSummary {
   /** Crowded points left out of the pose search (denser than any part of the template: likely a clump of outliers). */
   readonly crowded: number | null;
   readonly nonRigid: boolean | null;
+  /** Whether the bend correction was kept (MatchResult.bend); null when the sample failed. */
+  readonly bend: boolean | null;
   /** How far the chosen pose mode leads the best other one, nats (MatchResult.poseMargin); null when none or the sample failed. */
   readonly poseMargin: number | null;
   /** Wall time of matching, seconds; absent under --no-timestamp (it differs from run to run). */
@@ -231,7 +235,7 @@ export async function runMatch(
 
   let hitRadius = o.hitRadius === 'auto' || o.hitRadius === undefined ? DEFAULT_HIT_RADIUS : o.hitRadius;
   let choice: HitRadiusChoice | null = null;
-  const base: Omit<MatchOptions, 'rng'> = { method: o.method, maxTrials: o.maxTrials, nonRigid: o.nonrigid, abstainBelow: o.abstainBelow };
+  const base: Omit<MatchOptions, 'rng'> = { method: o.method, maxTrials: o.maxTrials, nonRigid: o.nonrigid, bend: o.bend, abstainBelow: o.abstainBelow };
   if (o.hitRadius === 'auto') {
     const members = memberSamples(template);
     if (members.length < 3) {
@@ -261,6 +265,7 @@ export async function runMatch(
       stopReason: null,
       crowded: null,
       nonRigid: null,
+      bend: null,
       poseMargin: null,
       ...(timestamp ? { seconds } : {}),
       error,
@@ -321,6 +326,7 @@ export async function runMatch(
       stopReason: r.stopReason,
       crowded: r.crowded,
       nonRigid: r.nonRigid,
+      bend: r.bend,
       poseMargin: r.poseMargin,
       ...(timestamp ? { seconds: t.seconds } : {}),
       error: null,
@@ -416,6 +422,7 @@ export const registerMatch: CommandRegistrar = (program: Command, io: CliIo) => 
     .option('--max-trials <n>', 'cap on pose hypotheses per sample', integerOption(1))
     .option('--nonrigid', 'add a smooth non-rigid correction after the affine fit (off by default)')
     .option('--no-nonrigid', 'no non-rigid correction (the default)')
+    .option('--no-bend', 'no bend correction (by default a bend along the template\'s long axis is fitted after the affine pose and kept when it pays)')
     .option('--abstain-below <p>', 'leave points unlabelled when the confidence of their proposal is below p (default 0)', positiveNumberOption(true))
     .option('--alternatives <n>', `add to each CSV row the n most probable other labels and their posterior probabilities (columns alternative_1, alternative_1_probability, ...; n from 0 to ${MAX_ALTERNATIVES}, default 0)`, integerOption(0))
     .option('--force', 'replace existing output files')

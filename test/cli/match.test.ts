@@ -68,6 +68,15 @@ describe('cairn match', () => {
     expect(summary.format).toBe('cairn-match');
     expect(summary.samples.map((s: { id: string }) => s.id)).toEqual(['probe0', 'probe1', 'probe2']);
     expect(summary.samples[0].transform.linear).toHaveLength(3);
+    for (const e of summary.samples) expect(typeof e.bend).toBe('boolean');
+  });
+
+  it('leaves the bend correction out under --no-bend', async () => {
+    const out = join(dir, 'out-nobend');
+    const r = await run('match', templateFile, ...sampleFiles, '-o', out, '--seed', '5', '--max-trials', '100', '--no-bend');
+    expect(r.code).toBe(0);
+    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8'));
+    expect(summary.samples.map((e: { bend: boolean }) => e.bend)).toEqual([false, false, false]);
   });
 
   it('reports crowded points (a dense clump beside the head) in summary.json and on stdout', async () => {

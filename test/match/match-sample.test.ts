@@ -180,6 +180,34 @@ describe('pose margin (is the orientation settled?)', () => {
   });
 });
 
+describe('bend correction (bend.ts)', () => {
+  // 120 cells in ganglia, jitter sd 0.5-1.5 um, bends of up to 6 um in training and test animals alike.
+  const bentHead = (seed: number) => {
+    const rng = createRng(seed);
+    const layout = generateLayout(rng, { cells: 120, dim: 3, arrangement: 'ganglia' });
+    const template = templateFromTraining(layout, rng, { members: 15, animal: { jitterScale: 0.5, bend: 6 } });
+    const animal = generateAnimal(layout, rng, 'bent', { outlierFraction: 0.1, missingFraction: 0.1, jitterScale: 0.5, bend: 6 });
+    const correct = (r: ReturnType<typeof matchSample>) => animal.truth.filter((t, i) => t !== null && r.proposals[i].label === t).length;
+    return { template, animal, correct };
+  };
+
+  it('is kept for a head bent by 6 um at its ends and labels more cells right than without it', () => {
+    const { template, animal, correct } = bentHead(42);
+    expect(animal.bendAmplitude).toBeGreaterThan(5.5);
+    const withBend = matchSample(template, animal.sample, { rng: createRng(1) });
+    const without = matchSample(template, animal.sample, { rng: createRng(1), bend: false });
+    expect(withBend.bend).toBe(true);
+    expect(without.bend).toBe(false);
+    expect(correct(withBend)).toBeGreaterThan(correct(without));
+  });
+
+  it('is not kept for a head that hardly bends (its gain stays below the penalty)', () => {
+    const { template, animal } = bentHead(41);
+    expect(Math.abs(animal.bendAmplitude)).toBeLessThan(1);
+    expect(matchSample(template, animal.sample, { rng: createRng(1) }).bend).toBe(false);
+  });
+});
+
 describe('matchSample on tiny and 1-D problems (exhaustive search)', () => {
   it('recovers every label of a 1-D sample shifted by 37 um, exactly', () => {
     const template = lineTemplate(12);
