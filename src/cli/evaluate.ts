@@ -11,7 +11,7 @@ import { formatCsv, writeFileAtomic } from '../io/write.js';
 import { crossValidate, type CrossValidationResult } from '../evaluate/cross-validate.js';
 import { chooseHitRadius, type HitRadiusChoice } from '../evaluate/hit-radius.js';
 import type { AccuracyReport } from '../evaluate/metrics.js';
-import { POSE_MARGIN_SETTLED } from '../match/match-sample.js';
+import { POSE_MARGIN_SETTLED, poseUnsettled } from '../match/match-sample.js';
 import { crossValidationScheme, renderEvaluateHtml } from '../report/evaluate-report.js';
 import { fixed } from '../report/svg/common.js';
 import { VERSION } from '../version.js';
@@ -70,7 +70,7 @@ export function renderEvaluateText(result: CrossValidationResult, choice: HitRad
   lines.push('least accurate cells: ' + worst.map((c) => `${c.key} ${c.correct}/${c.points}`).join(', '));
   if (r.confusedPairs.length) lines.push('most confused (hand label -> proposed): ' + r.confusedPairs.slice(0, 10).map((p) => `${p.truth}->${p.proposed} x${p.count}`).join(', '));
   for (const s of result.samples) if (s.skipped) lines.push(`not scored: ${s.sample}: ${s.skipped}`);
-  const unsettled = result.samples.filter((s) => s.poseMargin !== null && s.poseMargin < POSE_MARGIN_SETTLED);
+  const unsettled = result.samples.filter((s) => poseUnsettled(s.poseMargin));
   if (unsettled.length > 0) {
     const accuracyOf = new Map(r.perSample.map((s) => [s.key, s.accuracy]));
     lines.push(

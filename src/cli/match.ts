@@ -36,7 +36,7 @@ import {
   sampleIdFromPath,
   writeFileAtomic,
 } from '../io/index.js';
-import { DEFAULT_HIT_RADIUS, POSE_MARGIN_SETTLED, type MatchOptions } from '../match/match-sample.js';
+import { DEFAULT_HIT_RADIUS, POSE_MARGIN_SETTLED, poseUnsettled, type MatchOptions } from '../match/match-sample.js';
 import { matchSampleStream, type SampleJob, type TimedResult } from '../match/parallel.js';
 import { closeCalls, MATCH_REPORT_FIGURES, matchedFigureInput, mergeCloseCalls, renderMatchHtml, type CloseCall } from '../report/match-report.js';
 import type { MatchedFigureInput } from '../report/svg/matched-figure.js';
@@ -398,7 +398,7 @@ function renderText(s: MatchSummary, dir: string): string {
       `crowded points left out of the pose search (packed more densely than any part of the template, most likely a clump of outliers; they still get proposals): ${crowded.map((e) => `${e.id} ${e.crowded}`).join(', ')}`,
     );
   }
-  const unsettled = s.samples.filter((e) => e.poseMargin !== null && e.poseMargin < POSE_MARGIN_SETTLED);
+  const unsettled = s.samples.filter((e) => poseUnsettled(e.poseMargin));
   if (unsettled.length > 0) {
     lines.push(
       `orientation not settled (another pose scores within ${POSE_MARGIN_SETTLED} nats; give a few labels in the sample file and match again): ${unsettled.map((e) => `${e.id} ${(e.poseMargin as number).toFixed(1)}`).join(', ')}`,

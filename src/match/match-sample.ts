@@ -145,6 +145,11 @@ export interface MatchResult {
  */
 export const POSE_MARGIN_SETTLED = 10;
 
+/** True when a pose margin (MatchResult.poseMargin) says the orientation is not settled; false for null (no other mode). */
+export function poseUnsettled(margin: number | null): boolean {
+  return margin !== null && margin < POSE_MARGIN_SETTLED;
+}
+
 /** Whether the non-rigid correction is on by default (chosen on the accuracy suite; see docs/algorithms.md). */
 export const DEFAULT_NON_RIGID = false;
 
@@ -508,19 +513,19 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       }
       return { expected, weight };
     };
-    // The kernel smoother climbs the greedy matching gain; the bend, whose BIC gate needs a likelihood,
-    // climbs the points' likelihood L = sum_i log(1 + sum_k b_k W_ik) = -sum_i log P(i is an outlier).
-    const estep = (y: Points) => {
-      const g = pairGains(model, prepared.pairGrid, y, jac, params);
-      return { ...expectedCells(g, sinkhorn(g, n, model.size, 40)), objective: greedyMatchingGain(g, n, model.size) };
-    };
-    const estepLikelihood = (y: Points) => {
+    const estepScoredBy = (objective: (g: PairGains, mg: Marginals) => number) => (y: Points) => {
       const g = pairGains(model, prepared.pairGrid, y, jac, params);
       const mg = sinkhorn(g, n, model.size, 40);
+      return { ...expectedCells(g, mg), objective: objective(g, mg) };
+    };
+    // The kernel smoother climbs the greedy matching gain; the bend, whose BIC gate needs a likelihood,
+    // climbs the points' likelihood L = sum_i log(1 + sum_k b_k W_ik) = -sum_i log P(i is an outlier).
+    const estep = estepScoredBy((g) => greedyMatchingGain(g, n, model.size));
+    const estepLikelihood = estepScoredBy((_g, mg) => {
       let likelihood = 0;
       for (let i = 0; i < n; i++) likelihood -= Math.log(mg.outlier[i]);
-      return { ...expectedCells(g, mg), objective: likelihood };
-    };
+      return likelihood;
+    });
     if (nonRigid && n >= 2 * (d + 1)) {
       const nr = nonRigidCorrect(estep, mapped, 6 * prepared.spacing, 8, 4);
       if (nr.iterations > 0) {
@@ -528,7 +533,8 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
         nonRigidApplied = true;
       }
     }
-    if (bend && d >= 2 && n >= 2 * (d + 1)) {
+    if (bend && d >= 2) {
+      // correctBend leaves samples with too few points for its 3d coefficients as they are.
       const b = correctBend(estepLikelihood, mapped, { axis: prepared.axes.map((row) => row[0]), centroid: prepared.centroid, halfLength: prepared.halfLength });
       mapped = b.mapped;
       bendApplied = b.applied;

@@ -7,7 +7,7 @@
  * streaming batch keeps only what the page needs.
  */
 import { applyToPoint } from '../geometry/transform.js';
-import { POSE_MARGIN_SETTLED, type MatchResult } from '../match/match-sample.js';
+import { POSE_MARGIN_SETTLED, poseUnsettled, type MatchResult } from '../match/match-sample.js';
 import type { Sample, Template } from '../types.js';
 import {
   paragraph,
@@ -214,7 +214,7 @@ export function buildMatchReport(input: MatchReportInput): ReportPage {
 
 /** The summary's line on unsettled orientations: how many samples, and the first few of them. */
 function unsettledText(matched: readonly MatchReportRow[]): string {
-  const ids = matched.filter((r) => r.poseMargin !== null && r.poseMargin < POSE_MARGIN_SETTLED).map((r) => r.id);
+  const ids = matched.filter((r) => poseUnsettled(r.poseMargin)).map((r) => r.id);
   if (ids.length === 0) return 'none';
   const shown = ids.slice(0, 5).join(', ');
   return `${ids.length} of ${matched.length}: ${shown}${ids.length > 5 ? ', …' : ''} (give a few labels and match again)`;

@@ -37,7 +37,7 @@
 import { applyToPoint, fitAffine, fitSimilarity, invertTransform, transformScale } from '../../src/geometry/index.js';
 import { calibrationTable, expectedCalibrationError, type ScoredPoint } from '../../src/evaluate/metrics.js';
 import { sampleSeed } from '../../src/evaluate/cross-validate.js';
-import { labelMappedPoints, matchSample, POSE_MARGIN_SETTLED, prepareTemplate, type MatchResult } from '../../src/match/match-sample.js';
+import { labelMappedPoints, matchSample, POSE_MARGIN_SETTLED, poseUnsettled, prepareTemplate, type MatchResult } from '../../src/match/match-sample.js';
 import { createRng, shuffle } from '../../src/random.js';
 import { buildTemplate } from '../../src/template/index.js';
 import type { Sample, Template } from '../../src/types.js';
@@ -171,7 +171,7 @@ function pct(x: number): string {
  * the range of margins in each.
  */
 function marginReport(t: Tally): string {
-  const groups = [t.margins.filter((m) => m.margin !== null && m.margin < POSE_MARGIN_SETTLED), t.margins.filter((m) => m.margin === null || m.margin >= POSE_MARGIN_SETTLED)];
+  const groups = [t.margins.filter((m) => poseUnsettled(m.margin)), t.margins.filter((m) => !poseUnsettled(m.margin))];
   const describe = (g: typeof t.margins): string => {
     if (g.length === 0) return 'none';
     const c = g.reduce((a, m) => a + m.correct, 0), o = g.reduce((a, m) => a + m.oracle, 0);
