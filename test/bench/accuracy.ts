@@ -1,7 +1,7 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
@@ -12,7 +12,10 @@
  * largest bend, --crop cuts that share of each test animal's cells off by a
  * plane, --axial stretches the depth axis of training and test animals by a
  * factor within 1 +- F: it draws one more number per animal, so compare
- * with --axial 0.001, the same animals nearly unstretched); the ganglia case packs the same number of
+ * with --axial 0.001, the same animals nearly unstretched; --warp adds a smooth
+ * local warp of that sd in um, neighbouring cells moving together, to training
+ * and test animals: cell-level variability the template takes in and the oracle
+ * does not undo; it too draws more numbers, compare with --warp 0.001); the ganglia case packs the same number of
  * cells into clusters with gaps between them (as real heads group nuclei in
  * ganglia), at the default jitter. The template is built by buildTemplate
  * (src/template) from 25 training animals labelled at 60%.
@@ -78,6 +81,8 @@ const bendMax = Number(argValue('bend', '3'));
 const cropFraction = Number(argValue('crop', '0'));
 /** Largest axial (last-axis) scale error of training and test animals: the depth stretched by up to this share. */
 const axialRange = Number(argValue('axial', '0'));
+/** Standard deviation (um) of the smooth local warp of training and test animals (test/support/animals.ts, AnimalOptions.warp). */
+const warp = Number(argValue('warp', '0'));
 if (!(outlierFraction >= 0 && outlierFraction < 1) || !(missingFraction >= 0 && missingFraction < 1)) {
   throw new Error('--outliers and --missing must be fractions in [0, 1)');
 }
@@ -87,6 +92,7 @@ if (!(Number.isInteger(cellCount) && cellCount >= 10) || !(Number.isInteger(trai
 if ((dimension !== 2 && dimension !== 3) || !(bendMax >= 0)) throw new Error('--dim must be 2 or 3 and --bend a length >= 0 (um)');
 if (!(cropFraction >= 0 && cropFraction < 1)) throw new Error('--crop must be a fraction in [0, 1)');
 if (!(axialRange >= 0 && axialRange < 1)) throw new Error('--axial must be a fraction in [0, 1)');
+if (!(warp >= 0 && Number.isFinite(warp))) throw new Error('--warp must be a length >= 0 (um)');
 
 interface Tally {
   trueCells: number;
@@ -225,6 +231,7 @@ function runCase(spec: CaseSpec): void {
       jitterScale: spec.jitterScale,
       bend: bendMax,
       axialScaleRange: axialRange,
+      warp,
     }).sample,
   );
   const built = buildTemplate(training);
@@ -246,9 +253,10 @@ function runCase(spec: CaseSpec): void {
       bend: bendMax,
       cropFraction,
       axialScaleRange: axialRange,
+      warp,
     }),
   );
-  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing${cropFraction > 0 ? ` and ${Math.round(cropFraction * 100)}% of the rest cut off by a plane` : ''}, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%${axialRange > 0 ? `, depth stretched by up to +-${Number((axialRange * 100).toPrecision(2))}%` : ''}`);
+  console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing${cropFraction > 0 ? ` and ${Math.round(cropFraction * 100)}% of the rest cut off by a plane` : ''}, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%${axialRange > 0 ? `, depth stretched by up to +-${Number((axialRange * 100).toPrecision(2))}%` : ''}${warp > 0 ? `, smooth local warp sd ${warp} um` : ''}`);
   console.log(`template: buildTemplate on ${trainingCount} animals labelled at 60% (${template.cells.length} cells, ${template.members.length} members); ${animals.length} test animals; max trials ${maxTrials ?? 'default'}`);
   console.log(HEADER);
 

@@ -1,4 +1,5 @@
 import { describe, it, expect } from 'vitest';
+import { Matrix, solve } from 'ml-matrix';
 import { createRng } from '../../src/random.js';
 import {
   BAND_NAMES,
@@ -317,6 +318,36 @@ describe('generateAnimal', () => {
     const flat2 = generateAnimal(layout2, createRng(29), 'a', { rotate: false, scaleRange: 0, translate: 0, bend: 0, axialScaleRange: 0.2 });
     expect(flat2.fromLayoutFrame([3, -2])).toEqual([3, -2 * flat2.axialScale]);
     expect(() => generateAnimal(layout3, createRng(1), 'a', { axialScaleRange: 1 })).toThrow('generateAnimal: axialScaleRange must be in [0, 1), got 1');
+  });
+
+  it('warps smoothly and purely non-affinely when asked; without the option the animal is unchanged', () => {
+    const plain = generateAnimal(layout3, createRng(30), 'a');
+    expect(generateAnimal(layout3, createRng(30), 'a', { warp: 0 }).sample).toEqual(plain.sample);
+    // Nothing else moves the cells: the points minus the layout's positions are the warp itself.
+    const still = { rotate: false, scaleRange: 0, translate: 0, bend: 0, jitterScale: 0, missingFraction: 0, outlierFraction: 0, shuffle: false } as const;
+    const animal = generateAnimal(layout3, createRng(31), 'a', { ...still, warp: 2 });
+    const shift = animal.sample.coords.map((p, i) => p.map((v, k) => v - layout3.positions[i][k]));
+    const rms = Math.sqrt(shift.reduce((a, s) => a + s.reduce((b, v) => b + v * v, 0), 0) / shift.length);
+    expect(rms).toBeGreaterThan(0.2);
+    // Least-squares affine fit of the shifts on the positions (ml-matrix, outside this module): nothing left to fit.
+    const X = new Matrix(layout3.positions.map((p) => [...p, 1]));
+    const coefficients = solve(X, new Matrix(shift));
+    for (const row of coefficients.to2DArray()) for (const v of row) expect(Math.abs(v)).toBeLessThan(1e-8);
+    // Neighbouring cells move together: the shifts of nearest neighbours differ far less than those of cells half the list apart.
+    let near = 0, far = 0;
+    const m = layout3.positions.length;
+    layout3.positions.forEach((p, i) => {
+      let best = -1, bestD = Infinity;
+      layout3.positions.forEach((q, j) => {
+        const dd = (p[0] - q[0]) ** 2 + (p[1] - q[1]) ** 2 + (p[2] - q[2]) ** 2;
+        if (j !== i && dd < bestD) [best, bestD] = [j, dd];
+      });
+      const other = (i + Math.floor(m / 2)) % m;
+      near += shift[i].reduce((a, v, k) => a + (v - shift[best][k]) ** 2, 0);
+      far += shift[i].reduce((a, v, k) => a + (v - shift[other][k]) ** 2, 0);
+    });
+    expect(near / far).toBeLessThan(0.1);
+    expect(() => generateAnimal(layout3, createRng(1), 'a', { warp: -1 })).toThrow('generateAnimal: warp must be a finite number >= 0, got -1');
   });
 
   it('numbers rows 2..n+1 and, without shuffling, lists the true cells before the outliers', () => {

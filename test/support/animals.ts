@@ -29,6 +29,7 @@
 import type { Dim, Sample } from '../../src/types.js';
 import type { Rng } from '../../src/random.js';
 import { randomNormal, randomRotation, shuffle as shuffled } from '../../src/random.js';
+import { inverse as invertMatrix } from '../../src/geometry/linear-algebra.js';
 
 export interface Layout {
   dim: Dim;
@@ -100,6 +101,18 @@ export interface AnimalOptions {
    * number is drawn for it, so animals are the same as without the option.
    */
   axialScaleRange?: number;
+  /**
+   * Standard deviation (um, per axis) of a smooth local warp (default 0):
+   * four displacement bumps, each a Gaussian of width a quarter of the head's
+   * length centred on a random cell, with amplitudes drawn N(0, warp^2) per
+   * axis, less their least-squares affine fit over the cells (so that the
+   * warp is purely non-affine), added to the jittered cells. Neighbouring cells move together, as
+   * whole ganglia shift between real animals. Like the jitter it is cell-level
+   * variability: the template's covariances take it in, and toLayoutFrame
+   * does not undo it. With 0 no number is drawn for it, so animals are the
+   * same as without the option.
+   */
+  warp?: number;
 }
 
 export interface Animal {
@@ -388,6 +401,7 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
   const jitterScale = options.jitterScale ?? 1;
   const cropFraction = options.cropFraction ?? 0;
   const axialRange = options.axialScaleRange ?? 0;
+  const warp = options.warp ?? 0;
   for (const [name, v] of [
     ['missingFraction', missingFraction],
     ['cropFraction', cropFraction],
@@ -406,6 +420,7 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
     ['bend', bendMax],
     ['translate', translateMax],
     ['jitterScale', jitterScale],
+    ['warp', warp],
   ] as const)
     if (!(v >= 0 && Number.isFinite(v))) throw new RangeError(`generateAnimal: ${name} must be a finite number >= 0, got ${v}`);
 
@@ -459,6 +474,50 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
     const cropped = new Set(byProjection.slice(0, cut));
     present = present.filter((i) => !cropped.has(i));
   }
+  // Smooth local warp (cell-level, drawn only when asked for).
+  const warpBumps: { centre: number[]; shift: number[] }[] = [];
+  const xs = layout.positions.map((p) => p[0]);
+  const warpWidth = 0.25 * (Math.max(...xs) - Math.min(...xs));
+  if (warp > 0)
+    for (let m = 0; m < 4; m++)
+      warpBumps.push({
+        centre: layout.positions[Math.floor(rng() * n)].slice(),
+        shift: Array.from({ length: dim }, () => warp * randomNormal(rng)),
+      });
+  const bumps = (p: readonly number[]): number[] => {
+    const out = new Array<number>(dim).fill(0);
+    for (const b of warpBumps) {
+      let r2 = 0;
+      for (let k = 0; k < dim; k++) r2 += (p[k] - b.centre[k]) ** 2;
+      const w = Math.exp(-r2 / (2 * warpWidth * warpWidth));
+      for (let k = 0; k < dim; k++) out[k] += w * b.shift[k];
+    }
+    return out;
+  };
+  // The bumps minus their least-squares affine fit over the layout's cells: the warp is purely
+  // non-affine, so the animal's global deformation (which the oracle undoes) stays the one drawn above.
+  let warpAffine: number[][] = [];
+  if (warp > 0) {
+    const rows = layout.positions.map((p) => [...p, 1]);
+    const normal = rows[0].map((_, a) => rows[0].map((_, b) => rows.reduce((acc, r) => acc + r[a] * r[b], 0)));
+    const inv = invertMatrix(normal);
+    const shifts = layout.positions.map(bumps);
+    // warpAffine[k] = coefficients of axis k on (p, 1).
+    warpAffine = Array.from({ length: dim }, (_, k) => {
+      const rhs = rows[0].map((_, a) => rows.reduce((acc, r, i) => acc + r[a] * shifts[i][k], 0));
+      return inv.map((row) => row.reduce((acc, v, b) => acc + v * rhs[b], 0));
+    });
+  }
+  const warpOf = (p: readonly number[]): number[] => {
+    const out = bumps(p);
+    if (warpAffine.length > 0)
+      for (let k = 0; k < dim; k++) {
+        let fit = warpAffine[k][dim];
+        for (let a = 0; a < dim; a++) fit += warpAffine[k][a] * p[a];
+        out[k] -= fit;
+      }
+    return out;
+  };
   const presentSet = new Set(present);
   const missingCells = layout.positions.map((_, i) => i).filter((i) => !presentSet.has(i));
 
@@ -469,7 +528,8 @@ export function generateAnimal(layout: Layout, rng: Rng, id: string, options: An
     const l = choleskyLower(layout.jitter[cell]);
     const z = Array.from({ length: dim }, () => randomNormal(rng));
     const e = matVec(l, z).map((v) => v * jitterScale);
-    layoutPoints.push(layout.positions[cell].map((v, k) => v + e[k]));
+    const wv = warpOf(layout.positions[cell]);
+    layoutPoints.push(layout.positions[cell].map((v, k) => v + e[k] + wv[k]));
     truthCells.push(cell);
   }
 
