@@ -1,7 +1,7 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME[;NAME...]] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
@@ -278,7 +278,8 @@ function runCase(spec: CaseSpec): void {
     }
     console.log(`${'affine pose from truth'.padEnd(22)} ${pct(c / total).padStart(7)} ${pct(oracle / total).padStart(8)} ${(c / oracle).toFixed(3).padStart(7)}   (pose fitted on the true pairs; no search)`);
   }
-  for (const v of variants.filter((x) => !only || x.name === only)) {
+  const chosen = only ? only.split(';').map((x) => x.trim()) : [];
+  for (const v of variants.filter((x) => chosen.length === 0 || chosen.includes(x.name))) {
     const tally = emptyTally();
     for (const animal of animals) {
       // Given labels: a seeded choice of true cells whose labels the matcher sees (scored on the rest).
