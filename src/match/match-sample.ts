@@ -238,6 +238,8 @@ const FINALISTS = 3;
 const POLISH_EVALUATIONS = 30;
 /** Sinkhorn sweeps when the column factors start from 1 (the polish's start). */
 const FRESH_SWEEPS = 30;
+/** Sinkhorn sweeps of the likelihoods that chooseFamily compares (from fresh factors, as far as both need to converge). */
+const COMPARISON_SWEEPS = 60;
 /** Sinkhorn sweeps per later evaluation of the polish (factors carried from the previous one). */
 const POLISH_SWEEPS = 5;
 
@@ -451,13 +453,18 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     return { transform: c.transform, gain: matchFree(prepared, points, c.transform, params, fixed, true).gain };
   });
   const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
-  // Affine refinement of the chosen pose (hard EM on the matching, greedy), then an affine polish on
-  // the points' one-to-one likelihood, which sums over labellings instead of taking the best one (added
-  // in December 2026: ganglia 0.944 -> 0.990 of the ceiling on 32 animals, half jitter 0.931 -> 0.930,
-  // 40% outliers 0.890 -> 0.905 on 16; without the hard-EM steps before it the suite was the same but
-  // the demo animals lost 0.8 points).
-  const hardPose = hardEmRefine(prepared, points, best.transform, 'affine', affineLimits, params, fixed, { iterations: 6 }).transform;
-  const finalPose = polishOnPointLikelihood(prepared, points, hardPose, params, fixed, affineLimits);
+  // Final refinement of the chosen pose: hard EM on the matching (greedy), then a polish on the points'
+  // one-to-one likelihood L, which sums over labellings instead of taking the best one (added in
+  // December 2026: ganglia 0.944 -> 0.990 of the ceiling on 32 animals, half jitter 0.931 -> 0.930, 40%
+  // outliers 0.890 -> 0.905 on 16; without the hard-EM steps before it the suite was the same but the
+  // demo animals lost 0.8 points). Both run once as a similarity and once as an affine map; the affine
+  // pose is kept only when its L exceeds the similarity's by more than the BIC penalty of its extra
+  // parameters (chooseFamily).
+  const finalStages = (kind: 'similarity' | 'affine'): Transform => {
+    const hard = hardEmRefine(prepared, points, best.transform, kind, affineLimits, params, fixed, { iterations: 6 }).transform;
+    return polishOnPointLikelihood(prepared, points, hard, params, fixed, affineLimits, kind);
+  };
+  const finalPose = d === 1 ? finalStages('affine') : chooseFamily(prepared, points, params, fixed, finalStages('similarity'), finalStages('affine'));
   // The other distinct pose modes weigh in on the confidences (model averaging over poses).
   // Competing modes for the confidences: every distinct mode of the screening, weighed by its
   // screening gain against the winner's (all at the same stage, hence comparable); finalists
@@ -601,8 +608,27 @@ function pointLikelihoodScorer(
 }
 
 /**
+ * The similarity pose or the affine one, by the points' one-to-one likelihood
+ * L (pointLikelihoodScorer, from fresh column factors) with the BIC penalty
+ * (Schwarz 1978) on the affine map's extra parameters: the affine pose is kept
+ * only when L_affine - L_similarity > (q / 2) ln n, q = d(d+1) - d(d+1)/2 - 1
+ * (q = 5 in 3-D: 13.1 nats for 190 points; 2 in 2-D). A real stretch of one
+ * axis (depth mis-scaled by the optics, an animal pressed flat) gains far more
+ * than that; with none, the affine map's extra freedom fits only the noise of
+ * the labelling, and the similarity labels better (docs/algorithms.md, "Pose
+ * family").
+ */
+function chooseFamily(prepared: PreparedTemplate, points: Points, params: MatchModelParameters, fixed: readonly Pair[], similarity: Transform, affine: Transform): Transform {
+  const d = prepared.model.dim, n = points.length;
+  const extra = d * (d + 1) - (d * (d + 1)) / 2 - 1;
+  const score = pointLikelihoodScorer(prepared, points, params, fixed);
+  const gain = score(affine, COMPARISON_SWEEPS, true) - score(similarity, COMPARISON_SWEEPS, true);
+  return gain > (extra / 2) * Math.log(n) ? affine : similarity;
+}
+
+/**
  * Compass search (refine.ts) of the final pose on the points' one-to-one
- * likelihood: an affine map on top of the start, small steps (0.01 rad, 0.01
+ * likelihood: a map of the given family on top of the start, small steps (0.01 rad, 0.01
  * log-scale and shear, a sixth of the cell spacing), POLISH_EVALUATIONS
  * evaluations. The start is scored from fresh column factors with
  * FRESH_SWEEPS Sinkhorn sweeps; each later evaluation starts from the
@@ -616,6 +642,7 @@ function polishOnPointLikelihood(
   params: MatchModelParameters,
   fixed: readonly Pair[],
   limits: Plausibility,
+  kind: 'similarity' | 'affine',
 ): Transform {
   const score = pointLikelihoodScorer(prepared, points, params, fixed);
   let first = true;
@@ -626,7 +653,7 @@ function polishOnPointLikelihood(
     return value;
   };
   const s = prepared.spacing;
-  return compassSearch(objective, start, prepared.centroid, { rotation: 0.01, scale: 0.01, translation: s / 6, shear: 0.01 }, 'affine', POLISH_EVALUATIONS).transform;
+  return compassSearch(objective, start, prepared.centroid, { rotation: 0.01, scale: 0.01, translation: s / 6, shear: 0.01 }, kind, POLISH_EVALUATIONS).transform;
 }
 
 /**

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { UsageError } from '../../src/errors.js';
 import { labelMappedPoints, matchSample, POSE_MARGIN_SETTLED } from '../../src/match/match-sample.js';
+import { svd } from '../../src/geometry/linear-algebra.js';
 import { createRng, randomRotation } from '../../src/random.js';
 import type { Sample, Template } from '../../src/types.js';
 import { generateAnimal, generateLayout } from '../support/animals.js';
@@ -205,6 +206,36 @@ describe('bend correction (bend.ts)', () => {
     const { template, animal } = bentHead(41);
     expect(Math.abs(animal.bendAmplitude)).toBeLessThan(1);
     expect(matchSample(template, animal.sample, { rng: createRng(1) }).bend).toBe(false);
+  });
+});
+
+describe('pose family: similarity unless the affine map earns its extra parameters (chooseFamily)', () => {
+  // 120 cells in ganglia, jitter sd 0.5-1.5 um; the template from animals without any stretch.
+  const setting = (seed: number) => {
+    const rng = createRng(seed);
+    const layout = generateLayout(rng, { cells: 120, dim: 3, arrangement: 'ganglia' });
+    const template = templateFromTraining(layout, rng, { members: 15, animal: { jitterScale: 0.5 } });
+    const stretched = generateAnimal(layout, rng, 'deep', { outlierFraction: 0.1, missingFraction: 0.1, jitterScale: 0.5, axialScaleRange: 0.25 });
+    const plain = generateAnimal(layout, rng, 'plain', { outlierFraction: 0.1, missingFraction: 0.1, jitterScale: 0.5 });
+    return { template, stretched, plain };
+  };
+
+  it('keeps an affine pose for a sample whose depth axis is stretched by 24%, and labels most of its cells', () => {
+    const { template, stretched } = setting(51);
+    expect(stretched.axialScale).toBeGreaterThan(1.2);
+    const r = matchSample(template, stretched.sample, { rng: createRng(1) });
+    expect(r.transform.kind).toBe('affine');
+    // The map undoes the stretch: its singular values spread by about the stretch (1.24), not by the 1.35 bound.
+    const s = svd(r.transform.linear).s;
+    expect(Math.max(...s) / Math.min(...s)).toBeGreaterThan(1.12);
+    const trueCells = stretched.truth.filter((t) => t !== null).length;
+    const correct = stretched.truth.filter((t, i) => t !== null && r.proposals[i].label === t).length;
+    expect(correct / trueCells).toBeGreaterThan(0.5);
+  });
+
+  it('keeps the similarity for a sample of the same animals without a stretch', () => {
+    const { template, plain } = setting(51);
+    expect(matchSample(template, plain.sample, { rng: createRng(1) }).transform.kind).toBe('similarity');
   });
 });
 
