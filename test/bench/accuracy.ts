@@ -1,7 +1,7 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME[;NAME...]] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S | --seeds S1,S2,...] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME[;NAME...]] [--per-animal] [--outliers F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
@@ -61,7 +61,13 @@ const CASES: CaseSpec[] = [
 ];
 
 const animalsPerCase = Number(argValue('animals', '8'));
-const seed = Number(argValue('seed', '2026'));
+/**
+ * Seeds of the settings (layout, training animals, template, test animals). With several, every
+ * figure is pooled over them (sums of counts) and the ransac row also gives each seed's ratio: one
+ * layout's figure can sit several points from another's (December 2026: ganglia 0.86-0.99 over five).
+ */
+const seeds = argValue('seeds', argValue('seed', '2026')).split(',').map(Number);
+if (!seeds.every((s) => Number.isInteger(s))) throw new Error('--seed / --seeds must be integers (comma-separated)');
 const caseName = argValue('case', 'all');
 const maxTrialsArg = argValue('max-trials', '');
 const maxTrials = maxTrialsArg ? Number(maxTrialsArg) : undefined;
@@ -220,7 +226,16 @@ const HEADER = [
   's/anim'.padStart(7),
 ].join(' ');
 
-function runCase(spec: CaseSpec): void {
+interface Setting {
+  seed: number;
+  layout: Layout;
+  template: Template;
+  layoutToTemplate: ReturnType<typeof fitSimilarity>;
+  animals: Animal[];
+}
+
+/** One seeded setting of a case: layout, template from the training animals, and the test animals. */
+function makeSetting(spec: CaseSpec, seed: number): Setting {
   const rng = createRng(seed + Math.round(spec.jitterScale * 1000) + (spec.arrangement === 'ganglia' ? 1 : 0));
   const layout = generateLayout(rng, { cells: cellCount, dim: dimension, arrangement: spec.arrangement });
   const training = Array.from({ length: trainingCount }, (_, m) =>
@@ -256,8 +271,15 @@ function runCase(spec: CaseSpec): void {
       warp,
     }),
   );
+  return { seed, layout, template, layoutToTemplate, animals };
+}
+
+function runCase(spec: CaseSpec): void {
+  const settings = seeds.map((s) => makeSetting(spec, s));
+  const template = settings[0].template;
+  const testAnimals = settings.reduce((a, st) => a + st.animals.length, 0);
   console.log(`\ncase ${spec.name}: ${cellCount} cells (${spec.arrangement === 'ganglia' ? 'in ganglia with gaps' : 'packed uniformly'}), jitter sd ${(1 * spec.jitterScale).toFixed(1)}-${(3 * spec.jitterScale).toFixed(1)} um, ${Math.round(outlierFraction * 100)}% outliers (half clustered), ${Math.round(missingFraction * 100)}% missing${cropFraction > 0 ? ` and ${Math.round(cropFraction * 100)}% of the rest cut off by a plane` : ''}, ${dimension}-D, any rotation, bend <= ${bendMax} um, scale +-10%${axialRange > 0 ? `, depth stretched by up to +-${Number((axialRange * 100).toPrecision(2))}%` : ''}${warp > 0 ? `, smooth local warp sd ${warp} um` : ''}`);
-  console.log(`template: buildTemplate on ${trainingCount} animals labelled at 60% (${template.cells.length} cells, ${template.members.length} members); ${animals.length} test animals; max trials ${maxTrials ?? 'default'}`);
+  console.log(`template: buildTemplate on ${trainingCount} animals labelled at 60% (${template.cells.length} cells, ${template.members.length} members)${settings.length > 1 ? ` per seed; seeds ${seeds.join(', ')}, each its own layout, template and animals, figures pooled` : `; seed ${seeds[0]}`}; ${testAnimals} test animals; max trials ${maxTrials ?? 'default'}`);
   console.log(HEADER);
 
   const variants: { name: string; method: 'ransac' | 'icp' | 'cpd'; nonRigid: boolean; given: number }[] = [
@@ -270,51 +292,58 @@ function runCase(spec: CaseSpec): void {
   {
     // Ceiling with the pose known from the true correspondences (no search).
     let c = 0, total = 0, oracle = 0;
-    for (const animal of animals) {
-      const sample = { ...animal.sample, labels: animal.sample.labels.map(() => null) };
-      c += truePoseCorrect(template, animal, sample, new Set());
-      oracle += oracleCorrect(template, layout, layoutToTemplate, animal, sample, new Set());
-      total += animal.truth.filter((t) => t !== null).length;
-    }
+    for (const { template, layout, layoutToTemplate, animals } of settings)
+      for (const animal of animals) {
+        const sample = { ...animal.sample, labels: animal.sample.labels.map(() => null) };
+        c += truePoseCorrect(template, animal, sample, new Set());
+        oracle += oracleCorrect(template, layout, layoutToTemplate, animal, sample, new Set());
+        total += animal.truth.filter((t) => t !== null).length;
+      }
     console.log(`${'affine pose from truth'.padEnd(22)} ${pct(c / total).padStart(7)} ${pct(oracle / total).padStart(8)} ${(c / oracle).toFixed(3).padStart(7)}   (pose fitted on the true pairs; no search)`);
   }
   const chosen = only ? only.split(';').map((x) => x.trim()) : [];
   for (const v of variants.filter((x) => chosen.length === 0 || chosen.includes(x.name))) {
     const tally = emptyTally();
-    for (const animal of animals) {
-      // Given labels: a seeded choice of true cells whose labels the matcher sees (scored on the rest).
-      const pick = createRng(sampleSeed(seed + v.given, animal.sample.id));
-      const trueIdx = animal.truth.map((t, i) => (t === null ? -1 : i)).filter((i) => i >= 0);
-      const given = new Set(shuffle(trueIdx, pick).slice(0, v.given));
-      const labels = animal.sample.labels.map((_, i) => (given.has(i) ? animal.truth[i] : null));
-      const sample: Sample = { ...animal.sample, labels };
-      const start = performance.now();
-      let result: MatchResult | null = null;
-      try {
-        result = matchSample(template, sample, {
-          rng: createRng(sampleSeed(seed, animal.sample.id)),
-          method: v.method,
-          nonRigid: v.nonRigid,
-          maxTrials,
-        });
-      } catch (e) {
-        console.log(`  ${v.name}: ${animal.sample.id} failed: ${(e as Error).message}`);
+    const perSeed: string[] = [];
+    for (const { seed, template, layout, layoutToTemplate, animals } of settings) {
+      const seedStart = { correct: tally.correct, oracle: tally.oracleCorrect };
+      for (const animal of animals) {
+        // Given labels: a seeded choice of true cells whose labels the matcher sees (scored on the rest).
+        const pick = createRng(sampleSeed(seed + v.given, animal.sample.id));
+        const trueIdx = animal.truth.map((t, i) => (t === null ? -1 : i)).filter((i) => i >= 0);
+        const given = new Set(shuffle(trueIdx, pick).slice(0, v.given));
+        const labels = animal.sample.labels.map((_, i) => (given.has(i) ? animal.truth[i] : null));
+        const sample: Sample = { ...animal.sample, labels };
+        const start = performance.now();
+        let result: MatchResult | null = null;
+        try {
+          result = matchSample(template, sample, {
+            rng: createRng(sampleSeed(seed, animal.sample.id)),
+            method: v.method,
+            nonRigid: v.nonRigid,
+            maxTrials,
+          });
+        } catch (e) {
+          console.log(`  ${v.name}: ${animal.sample.id} failed: ${(e as Error).message}`);
+        }
+        tally.seconds += (performance.now() - start) / 1000;
+        tally.matched++;
+        const proposals = result
+          ? result.proposals
+          : sample.coords.map(() => ({ label: null, confidence: 0, distance: null, alternatives: [] }));
+        const before = { correct: tally.correct, oracle: tally.oracleCorrect };
+        score(tally, animal, proposals, given);
+        tally.oracleCorrect += oracleCorrect(template, layout, layoutToTemplate, animal, sample, given);
+        tally.margins.push({ margin: result?.poseMargin ?? null, correct: tally.correct - before.correct, oracle: tally.oracleCorrect - before.oracle });
+        if (perAnimal) {
+          const c = tally.correct - before.correct, o = tally.oracleCorrect - before.oracle;
+          console.log(`  ${v.name}: ${settings.length > 1 ? `seed ${seed} ` : ''}${animal.sample.id} ${c} correct, oracle ${o}, ratio ${(c / Math.max(1, o)).toFixed(3)}, ${result?.trials ?? 0} trials (${result?.stopReason ?? 'failed'}), pose margin ${result?.poseMargin == null ? '-' : result.poseMargin.toFixed(1)}`);
+        }
       }
-      tally.seconds += (performance.now() - start) / 1000;
-      tally.matched++;
-      const proposals = result
-        ? result.proposals
-        : sample.coords.map(() => ({ label: null, confidence: 0, distance: null, alternatives: [] }));
-      const before = { correct: tally.correct, oracle: tally.oracleCorrect };
-      score(tally, animal, proposals, given);
-      tally.oracleCorrect += oracleCorrect(template, layout, layoutToTemplate, animal, sample, given);
-      tally.margins.push({ margin: result?.poseMargin ?? null, correct: tally.correct - before.correct, oracle: tally.oracleCorrect - before.oracle });
-      if (perAnimal) {
-        const c = tally.correct - before.correct, o = tally.oracleCorrect - before.oracle;
-        console.log(`  ${v.name}: ${animal.sample.id} ${c} correct, oracle ${o}, ratio ${(c / Math.max(1, o)).toFixed(3)}, ${result?.trials ?? 0} trials (${result?.stopReason ?? 'failed'}), pose margin ${result?.poseMargin == null ? '-' : result.poseMargin.toFixed(1)}`);
-      }
+      perSeed.push(((tally.correct - seedStart.correct) / Math.max(1, tally.oracleCorrect - seedStart.oracle)).toFixed(3));
     }
     console.log(report(v.name, tally));
+    if (settings.length > 1) console.log(`  ratio per seed (${seeds.join(', ')}): ${perSeed.join(' ')}`);
     if (v.method === 'ransac') console.log(marginReport(tally));
     if (v.name === 'ransac') {
       const bins = calibrationTable(tally.scored).filter((b) => b.count > 0);
