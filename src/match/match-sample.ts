@@ -238,7 +238,7 @@ const FINALISTS = 3;
 const POLISH_EVALUATIONS = 30;
 /** Sinkhorn sweeps when the column factors start from 1 (the polish's start). */
 const FRESH_SWEEPS = 30;
-/** Sinkhorn sweeps of the likelihoods that chooseFamily compares (from fresh factors, as far as both need to converge). */
+/** Sinkhorn sweeps of the likelihoods compared to choose a pose (chooseFamily, unsettled finalists; from fresh factors). */
 const COMPARISON_SWEEPS = 60;
 /** Sinkhorn sweeps per later evaluation of the polish (factors carried from the previous one). */
 const POLISH_SWEEPS = 5;
@@ -452,34 +452,60 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: prepared.spacing / 2 }, 'similarity', COMPASS_EVALUATIONS);
     return { transform: c.transform, gain: matchFree(prepared, points, c.transform, params, fixed, true).gain };
   });
-  const best = refined.slice().sort((a, b) => b.gain - a.gain)[0];
-  // Final refinement of the chosen pose: hard EM on the matching (greedy), then a polish on the points'
+  const byGain = refined.indexOf(refined.slice().sort((a, b) => b.gain - a.gain)[0]);
+  // Final refinement of a pose: hard EM on the matching (greedy), then a polish on the points'
   // one-to-one likelihood L, which sums over labellings instead of taking the best one (added in
   // December 2026: ganglia 0.944 -> 0.990 of the ceiling on 32 animals, half jitter 0.931 -> 0.930, 40%
   // outliers 0.890 -> 0.905 on 16; without the hard-EM steps before it the suite was the same but the
   // demo animals lost 0.8 points). Both run once as a similarity and once as an affine map; the affine
   // pose is kept only when its L exceeds the similarity's by more than the BIC penalty of its extra
   // parameters (chooseFamily).
-  const finalStages = (kind: 'similarity' | 'affine'): Transform => {
-    const hard = hardEmRefine(prepared, points, best.transform, kind, affineLimits, params, fixed, { iterations: 6 }).transform;
-    return polishOnPointLikelihood(prepared, points, hard, params, fixed, affineLimits, kind);
+  const finalFrom = (start: Transform): Transform => {
+    const stages = (kind: 'similarity' | 'affine'): Transform => {
+      const hard = hardEmRefine(prepared, points, start, kind, affineLimits, params, fixed, { iterations: 6 }).transform;
+      return polishOnPointLikelihood(prepared, points, hard, params, fixed, affineLimits, kind);
+    };
+    return d === 1 ? stages('affine') : chooseFamily(prepared, points, params, fixed, stages('similarity'), stages('affine'));
   };
-  const finalPose = d === 1 ? finalStages('affine') : chooseFamily(prepared, points, params, fixed, finalStages('similarity'), finalStages('affine'));
   // The other distinct pose modes weigh in on the confidences (model averaging over poses).
   // Competing modes for the confidences: every distinct mode of the screening, weighed by its
   // screening gain against the winner's (all at the same stage, hence comparable); finalists
   // contribute their refined pose.
-  const winnerIndex = refined.indexOf(best);
   const screenedModes = distinctModes(screened, points, MODES_IN_CONFIDENCE, separation);
-  const winnerScreenGain = screenedModes.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
-  const others: { transform: Transform; gain: number }[] = [];
-  for (const m of screenedModes) {
-    const f = finalists.findIndex((t) => poseDistance(t, m.transform, points) < 1e-9);
-    if (f === winnerIndex) continue;
-    others.push({ transform: f >= 0 ? refined[f].transform : m.transform, gain: m.gain });
+  const modesAgainst = (winnerIndex: number) => {
+    const winnerScreenGain = screenedModes.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
+    const others: { transform: Transform; gain: number }[] = [];
+    for (const m of screenedModes) {
+      const f = finalists.findIndex((t) => poseDistance(t, m.transform, points) < 1e-9);
+      if (f === winnerIndex) continue;
+      others.push({ transform: f >= 0 ? refined[f].transform : m.transform, gain: m.gain });
+    }
+    const poseMargin = others.length > 0 ? winnerScreenGain - Math.max(...others.map((m) => m.gain)) : null;
+    return { winnerScreenGain, others, poseMargin };
+  };
+  let finalPose = finalFrom(refined[byGain].transform);
+  let modes = modesAgainst(byGain);
+  if (poseUnsettled(modes.poseMargin) && refined.length > 1) {
+    // The matching gain does not settle the orientation: every finalist goes through the final
+    // refinement, and the one whose pose gives the points the highest likelihood L wins (December 2026,
+    // pooled over five seeds: half jitter 0.882 -> 0.889 of the ceiling, ganglia 0.938 -> 0.942; the
+    // uniformly packed head at full jitter 0.272 -> 0.282; docs/algorithms.md, "Pose margin").
+    const score = pointLikelihoodScorer(prepared, points, params, fixed);
+    let winner = byGain;
+    let bestLikelihood = score(finalPose, COMPARISON_SWEEPS, true);
+    refined.forEach((r, i) => {
+      if (i === byGain) return;
+      const t = finalFrom(r.transform);
+      const likelihood = score(t, COMPARISON_SWEEPS, true);
+      if (likelihood > bestLikelihood) {
+        bestLikelihood = likelihood;
+        winner = i;
+        finalPose = t;
+      }
+    });
+    if (winner !== byGain) modes = modesAgainst(winner);
   }
-  const poseMargin = others.length > 0 ? winnerScreenGain - Math.max(...others.map((m) => m.gain)) : null;
-  return finish(finalPose, others, winnerScreenGain, poseMargin);
+  return finish(finalPose, modes.others, modes.winnerScreenGain, modes.poseMargin);
 
   /**
    * Stages 3 and 4 from the chosen affine pose. `otherModes` are competing
