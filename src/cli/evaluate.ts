@@ -129,7 +129,7 @@ export function registerEvaluate(program: Command, io: CliIo): void {
     .addOption(new Option('--method <name>', 'matching method').choices(['ransac', 'icp', 'cpd']).default('ransac'))
     .option('--hit-radius <r>', 'hit radius in Mahalanobis units, or "auto" to choose it by cross-validation', hitRadiusOption)
     .option('--max-trials <n>', 'cap on hypotheses per sample', integerOption(1))
-    .option('--nonrigid', 'add a smooth non-rigid correction after the affine fit (off by default)')
+    .option('--nonrigid', 'add a smooth non-rigid correction after the pose fit (off by default)')
     .option('--no-nonrigid', 'no non-rigid correction (the default)')
     .addOption(new Option('--json', 'print the full report as JSON').conflicts('csv'))
     .addOption(new Option('--csv', 'print one row per scored point as CSV').conflicts('json'))

@@ -1,5 +1,5 @@
 /**
- * Bend correction along the template's long axis, after the affine pose.
+ * Bend correction along the template's long axis, after the pose (similarity or affine).
  *
  * An elongated head bends: points are displaced across the long axis by an
  * amount that grows with the distance along it. The affine pose cannot follow

@@ -87,9 +87,9 @@ export interface MatchOptions {
   hitRadius?: number;
   /** Cap on hypotheses (default DEFAULT_MAX_TRIALS). */
   maxTrials?: number;
-  /** Smooth non-rigid correction after the affine fit (default DEFAULT_NON_RIGID). */
+  /** Smooth non-rigid correction after the pose fit (default DEFAULT_NON_RIGID). */
   nonRigid?: boolean;
-  /** Bend correction along the template's long axis after the affine fit, kept when it pays (bend.ts; default DEFAULT_BEND). */
+  /** Bend correction along the template's long axis after the pose fit, kept when it pays (bend.ts; default DEFAULT_BEND). */
   bend?: boolean;
   /** Proposals whose confidence is below this are left unlabelled (default 0: keep every assignment). */
   abstainBelow?: number;
@@ -508,7 +508,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   return finish(finalPose, modes.others, modes.winnerScreenGain, modes.poseMargin);
 
   /**
-   * Stages 3 and 4 from the chosen affine pose. `otherModes` are competing
+   * Stages 3 and 4 from the chosen pose. `otherModes` are competing
    * poses with their matching gains; the confidence of a proposal is its
    * posterior averaged over the modes with weights exp(gain_m - bestGain)
    * (each mode's evidence approximated by its best matching, all compared at
