@@ -77,6 +77,13 @@ const COMPASS_EVALUATIONS = 15;
  * the accuracy suite and costs a compass search).
  */
 const FINALIST_GAP = 30;
+/**
+ * Distinct modes that join the finalists of a sample whose pose margin is
+ * below POSE_MARGIN_SETTLED, from a screening without halving (pooled over
+ * five seeds: half jitter 0.889 -> 0.899 of the ceiling, uniform packing at
+ * full jitter 0.282 -> 0.324; docs/algorithms.md, "Pose margin").
+ */
+const UNSETTLED_EXTRA = 2;
 /** Default plausible scale range of the sample -> template map (template kept at the average animal's size). */
 export const DEFAULT_SCALE_RANGE: readonly [number, number] = [0.75, 1.33];
 
@@ -394,7 +401,9 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // micrometres off reach the optimum of their basin; after each level only the better half of the
   // candidates (at least FINALISTS + 3) goes on (successive halving). The widened levels leave crowded
   // points out (with wide cells a clump of them pulls a pose onto itself); the last scores all points.
-  const screen = (ts: readonly Transform[]): { transform: Transform; gain: number }[] => {
+  // `halve` false keeps every candidate through every level (each is refined on its own, so the
+  // survivors of a halved screening get the same poses and gains as here).
+  const screen = (ts: readonly Transform[], halve = true): { transform: Transform; gain: number }[] => {
     let pool = ts.map((t) => ({ transform: t, gain: -Infinity }));
     ANNEALING.forEach((inflation, level) => {
       const set = inflation > 1 && uncrowded ? uncrowded : { points, fixed };
@@ -404,7 +413,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
           return { transform: r.transform, gain: r.gain };
         })
         .sort((a, b) => b.gain - a.gain);
-      if (level < ANNEALING.length - 1) pool = betterHalfAndDistinct(pool, set.points, Math.max(FINALISTS + 3, Math.ceil(pool.length / 2)), EXTRA_DISTINCT, 2 * prepared.spacing);
+      if (halve && level < ANNEALING.length - 1) pool = betterHalfAndDistinct(pool, set.points, Math.max(FINALISTS + 3, Math.ceil(pool.length / 2)), EXTRA_DISTINCT, 2 * prepared.spacing);
     });
     return pool;
   };
@@ -449,10 +458,11 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     if (!isPlausible(t, affineLimits)) return -Infinity;
     return matchFree(prepared, points, t, params, fixed, false).gain;
   };
-  const refined = finalists.map((t) => {
+  const refineFinalist = (t: Transform): { transform: Transform; gain: number } => {
     const c = compassSearch(greedyObjective, t, prepared.centroid, { rotation: 0.05, scale: 0.03, translation: prepared.spacing / 2 }, 'similarity', COMPASS_EVALUATIONS);
     return { transform: c.transform, gain: matchFree(prepared, points, c.transform, params, fixed, true).gain };
-  });
+  };
+  const refined = finalists.map(refineFinalist);
   const byGain = refined.indexOf(refined.slice().sort((a, b) => b.gain - a.gain)[0]);
   // Final refinement of a pose: hard EM on the matching (greedy), then a polish on the points'
   // one-to-one likelihood L, which sums over labellings instead of taking the best one (added in
@@ -472,29 +482,36 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // Competing modes for the confidences: every distinct mode of the screening, weighed by its
   // screening gain against the winner's (all at the same stage, hence comparable); finalists
   // contribute their refined pose.
-  const screenedModes = distinctModes(screened, points, MODES_IN_CONFIDENCE, separation);
-  const modesAgainst = (winnerIndex: number) => {
-    const winnerScreenGain = screenedModes.find((m) => poseDistance(m.transform, finalists[winnerIndex], points) < 1e-9)?.gain ?? screened[0].gain;
+  const modesAgainst = (pool: readonly { transform: Transform; gain: number }[], starts: readonly Transform[], ends: readonly { transform: Transform }[], winnerIndex: number) => {
+    const screenedModes = distinctModes(pool, points, MODES_IN_CONFIDENCE, separation);
+    const winnerScreenGain = screenedModes.find((m) => poseDistance(m.transform, starts[winnerIndex], points) < 1e-9)?.gain ?? pool[0].gain;
     const others: { transform: Transform; gain: number }[] = [];
     for (const m of screenedModes) {
-      const f = finalists.findIndex((t) => poseDistance(t, m.transform, points) < 1e-9);
+      const f = starts.findIndex((t) => poseDistance(t, m.transform, points) < 1e-9);
       if (f === winnerIndex) continue;
-      others.push({ transform: f >= 0 ? refined[f].transform : m.transform, gain: m.gain });
+      others.push({ transform: f >= 0 ? ends[f].transform : m.transform, gain: m.gain });
     }
     const poseMargin = others.length > 0 ? winnerScreenGain - Math.max(...others.map((m) => m.gain)) : null;
     return { winnerScreenGain, others, poseMargin };
   };
   let finalPose = finalFrom(refined[byGain].transform);
-  let modes = modesAgainst(byGain);
-  if (poseUnsettled(modes.poseMargin) && refined.length > 1) {
-    // The matching gain does not settle the orientation: every finalist goes through the final
-    // refinement, and the one whose pose gives the points the highest likelihood L wins (December 2026,
-    // pooled over five seeds: half jitter 0.882 -> 0.889 of the ceiling, ganglia 0.938 -> 0.942; the
-    // uniformly packed head at full jitter 0.272 -> 0.282; docs/algorithms.md, "Pose margin").
+  let modes = modesAgainst(screened, finalists, refined, byGain);
+  if (poseUnsettled(modes.poseMargin)) {
+    // The matching gain does not settle the orientation (December 2026; docs/algorithms.md, "Pose
+    // margin"). The screening is run again without halving, so that no candidate is dropped at the
+    // widened levels, and up to UNSETTLED_EXTRA more distinct modes join the finalists; every finalist
+    // goes through the final refinement, and the one whose pose gives the points the highest
+    // likelihood L wins.
+    const full = screen(candidates, false);
+    const extra = distinctModes(full, points, FINALISTS + UNSETTLED_EXTRA, separation)
+      .filter((m) => m.gain >= full[0].gain - FINALIST_GAP && finalists.every((f) => poseDistance(f, m.transform, points) > separation))
+      .map((m) => m.transform);
+    const starts = finalists.concat(extra);
+    const ends = refined.concat(extra.map(refineFinalist));
     const score = pointLikelihoodScorer(prepared, points, params, fixed);
     let winner = byGain;
     let bestLikelihood = score(finalPose, COMPARISON_SWEEPS, true);
-    refined.forEach((r, i) => {
+    ends.forEach((r, i) => {
       if (i === byGain) return;
       const t = finalFrom(r.transform);
       const likelihood = score(t, COMPARISON_SWEEPS, true);
@@ -504,7 +521,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
         finalPose = t;
       }
     });
-    if (winner !== byGain) modes = modesAgainst(winner);
+    modes = modesAgainst(full, starts, ends, winner);
   }
   return finish(finalPose, modes.others, modes.winnerScreenGain, modes.poseMargin);
 
