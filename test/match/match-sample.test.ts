@@ -186,6 +186,17 @@ describe('pose margin (is the orientation settled?)', () => {
     expect(correct).toBeGreaterThanOrEqual(20);
   });
 
+  it('when unsettled, also weighs modes that the halved screening dropped', () => {
+    // Seed 34 (full jitter, where orientation is close to a coin toss): among the three finalists of the
+    // halved screening none is right (9 cells right, margin 7.7); the screening without halving adds a
+    // mode that gives the points a higher likelihood and labels 28.
+    const { template, animal } = headOf('uniform', 34);
+    const r = matchSample(template, animal.sample, { rng: createRng(1) });
+    const correct = animal.truth.filter((t, i) => t !== null && r.proposals[i].label === t).length;
+    expect(correct).toBeGreaterThanOrEqual(20);
+    expect(r.poseMargin as number).toBeLessThan(POSE_MARGIN_SETTLED);
+  });
+
   it('is null for the baselines, which screen no other pose', () => {
     const { template, animal } = headOf('ganglia', 31);
     expect(matchSample(template, animal.sample, { rng: createRng(1), method: 'icp' }).poseMargin).toBeNull();
