@@ -78,10 +78,11 @@ const COMPASS_EVALUATIONS = 15;
  */
 const FINALIST_GAP = 30;
 /**
- * Distinct modes that join the finalists of a sample whose pose margin is
- * below POSE_MARGIN_SETTLED, from a screening without halving (pooled over
- * five seeds: half jitter 0.889 -> 0.899 of the ceiling, uniform packing at
- * full jitter 0.282 -> 0.324; docs/algorithms.md, "Pose margin").
+ * For a sample whose pose margin is below POSE_MARGIN_SETTLED, the best
+ * FINALISTS + UNSETTLED_EXTRA distinct modes of a screening without halving
+ * are considered, and those not near a finalist join the finalists (pooled
+ * over five seeds: half jitter 0.889 -> 0.899 of the ceiling, uniform packing
+ * at full jitter 0.282 -> 0.324; docs/algorithms.md, "Pose margin").
  */
 const UNSETTLED_EXTRA = 2;
 /** Default plausible scale range of the sample -> template map (template kept at the average animal's size). */
@@ -499,7 +500,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   if (poseUnsettled(modes.poseMargin)) {
     // The matching gain does not settle the orientation (December 2026; docs/algorithms.md, "Pose
     // margin"). The screening is run again without halving, so that no candidate is dropped at the
-    // widened levels, and up to UNSETTLED_EXTRA more distinct modes join the finalists; every finalist
+    // widened levels, and its best distinct modes not near a finalist join them; every finalist
     // goes through the final refinement, and the one whose pose gives the points the highest
     // likelihood L wins.
     const full = screen(candidates, false);
