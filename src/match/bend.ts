@@ -102,7 +102,7 @@ export interface BendResult {
 /**
  * Alternates E-step and bend fit (at most `iterations` fits) while the
  * objective grows; keeps the result when the total gain exceeds the BIC
- * penalty (3d / 2) ln n. The points are those already mapped by the affine
+ * penalty (3d / 2) ln n. The points are those already mapped by the
  * pose (template frame).
  */
 export function correctBend(estep: ExpectationStep, mapped: Points, axis: BendAxis, iterations = 4): BendResult {

@@ -402,16 +402,22 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // micrometres off reach the optimum of their basin; after each level only the better half of the
   // candidates (at least FINALISTS + 3) goes on (successive halving). The widened levels leave crowded
   // points out (with wide cells a clump of them pulls a pose onto itself); the last scores all points.
-  // `halve` false keeps every candidate through every level (each is refined on its own, so the
-  // survivors of a halved screening get the same poses and gains as here).
+  // `halve` false keeps every candidate through every level. Each candidate is refined on its own, so
+  // a refinement depends only on its start and level: kept per level (keyed by the start transform
+  // object), a second screening of the same candidates reuses the first one's work for its survivors.
+  const refinedAtLevel = ANNEALING.map(() => new Map<Transform, { transform: Transform; gain: number }>());
   const screen = (ts: readonly Transform[], halve = true): { transform: Transform; gain: number }[] => {
     let pool = ts.map((t) => ({ transform: t, gain: -Infinity }));
     ANNEALING.forEach((inflation, level) => {
       const set = inflation > 1 && uncrowded ? uncrowded : { points, fixed };
       pool = pool
         .map((c) => {
+          const known = refinedAtLevel[level].get(c.transform);
+          if (known) return known;
           const r = hardEmRefine(prepared, set.points, c.transform, 'similarity', limits, { ...params, inflation }, set.fixed, { iterations: SCREEN_ITERATIONS[level] });
-          return { transform: r.transform, gain: r.gain };
+          const out = { transform: r.transform, gain: r.gain };
+          refinedAtLevel[level].set(c.transform, out);
+          return out;
         })
         .sort((a, b) => b.gain - a.gain);
       if (halve && level < ANNEALING.length - 1) pool = betterHalfAndDistinct(pool, set.points, Math.max(FINALISTS + 3, Math.ceil(pool.length / 2)), EXTRA_DISTINCT, 2 * prepared.spacing);
@@ -472,12 +478,19 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // demo animals lost 0.8 points). Both run once as a similarity and once as an affine map; the affine
   // pose is kept only when its L exceeds the similarity's by more than the BIC penalty of its extra
   // parameters (chooseFamily).
-  const finalFrom = (start: Transform): Transform => {
+  const scoreFresh = (t: Transform): number => pointLikelihoodScorer(prepared, points, params, fixed)(t, COMPARISON_SWEEPS, true);
+  // The final pose from a start, with its L from fresh factors (computed here only when chooseFamily did not).
+  const finalFrom = (start: Transform): { transform: Transform; likelihood: () => number } => {
     const stages = (kind: 'similarity' | 'affine'): Transform => {
       const hard = hardEmRefine(prepared, points, start, kind, affineLimits, params, fixed, { iterations: 6 }).transform;
       return polishOnPointLikelihood(prepared, points, hard, params, fixed, affineLimits, kind);
     };
-    return d === 1 ? stages('affine') : chooseFamily(prepared, points, params, fixed, stages('similarity'), stages('affine'));
+    if (d === 1) {
+      const t = stages('affine');
+      return { transform: t, likelihood: () => scoreFresh(t) };
+    }
+    const chosen = chooseFamily(stages('similarity'), stages('affine'), scoreFresh, d, n);
+    return { transform: chosen.transform, likelihood: () => chosen.likelihood };
   };
   // The other distinct pose modes weigh in on the confidences (model averaging over poses).
   // Competing modes for the confidences: every distinct mode of the screening, weighed by its
@@ -495,7 +508,8 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     const poseMargin = others.length > 0 ? winnerScreenGain - Math.max(...others.map((m) => m.gain)) : null;
     return { winnerScreenGain, others, poseMargin };
   };
-  let finalPose = finalFrom(refined[byGain].transform);
+  const first = finalFrom(refined[byGain].transform);
+  let finalPose = first.transform;
   let modes = modesAgainst(screened, finalists, refined, byGain);
   if (poseUnsettled(modes.poseMargin)) {
     // The matching gain does not settle the orientation (December 2026; docs/algorithms.md, "Pose
@@ -509,17 +523,16 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       .map((m) => m.transform);
     const starts = finalists.concat(extra);
     const ends = refined.concat(extra.map(refineFinalist));
-    const score = pointLikelihoodScorer(prepared, points, params, fixed);
     let winner = byGain;
-    let bestLikelihood = score(finalPose, COMPARISON_SWEEPS, true);
+    let bestLikelihood = first.likelihood();
     ends.forEach((r, i) => {
       if (i === byGain) return;
-      const t = finalFrom(r.transform);
-      const likelihood = score(t, COMPARISON_SWEEPS, true);
+      const f = finalFrom(r.transform);
+      const likelihood = f.likelihood();
       if (likelihood > bestLikelihood) {
         bestLikelihood = likelihood;
         winner = i;
-        finalPose = t;
+        finalPose = f.transform;
       }
     });
     modes = modesAgainst(full, starts, ends, winner);
@@ -653,8 +666,9 @@ function pointLikelihoodScorer(
 }
 
 /**
- * The similarity pose or the affine one, by the points' one-to-one likelihood
- * L (pointLikelihoodScorer, from fresh column factors) with the BIC penalty
+ * The similarity pose or the affine one, with its likelihood, by the points'
+ * one-to-one likelihood L (`likelihoodOf`: pointLikelihoodScorer from fresh
+ * column factors) with the BIC penalty
  * (Schwarz 1978) on the affine map's extra parameters: the affine pose is kept
  * only when L_affine - L_similarity > (q / 2) ln n, q = d(d+1) - d(d+1)/2 - 1
  * (q = 5 in 3-D: 13.1 nats for 190 points; 2 in 2-D). A real stretch of one
@@ -663,12 +677,10 @@ function pointLikelihoodScorer(
  * the labelling, and the similarity labels better (docs/algorithms.md, "Pose
  * family").
  */
-function chooseFamily(prepared: PreparedTemplate, points: Points, params: MatchModelParameters, fixed: readonly Pair[], similarity: Transform, affine: Transform): Transform {
-  const d = prepared.model.dim, n = points.length;
+function chooseFamily(similarity: Transform, affine: Transform, likelihoodOf: (t: Transform) => number, d: number, n: number): { transform: Transform; likelihood: number } {
   const extra = d * (d + 1) - (d * (d + 1)) / 2 - 1;
-  const score = pointLikelihoodScorer(prepared, points, params, fixed);
-  const gain = score(affine, COMPARISON_SWEEPS, true) - score(similarity, COMPARISON_SWEEPS, true);
-  return gain > (extra / 2) * Math.log(n) ? affine : similarity;
+  const lAffine = likelihoodOf(affine), lSimilarity = likelihoodOf(similarity);
+  return lAffine - lSimilarity > (extra / 2) * Math.log(n) ? { transform: affine, likelihood: lAffine } : { transform: similarity, likelihood: lSimilarity };
 }
 
 /**
