@@ -6,17 +6,19 @@
  * one-to-one matching M between points and cells; points outside M are
  * outliers, cells outside M are missing. Each cell is detected with
  * probability rho; detected cell k puts its point at y ~ N(mu_k, S_k);
- * outliers form a Poisson process of intensity Lambda u (u = 1 / V, V the
- * sample's bounding-box volume, in the sample's frame). The likelihood of a
- * matching is, up to terms that do not depend on it,
+ * outliers form a Poisson process of intensity Lambda u_i at point i, with
+ * u = 1 / V (V the sample's bounding-box volume, in the sample's frame) and
+ * u_i = u exp(delta_i), delta_i >= 0 where outliers are known to crowd
+ * (excess-density.ts; delta_i = 0 everywhere unless given). The likelihood
+ * of a matching is, up to terms that do not depend on it,
  *
  *   p(X, M) ∝ prod_{(i,k) in M} rho J N(y_i; mu_k, S_k)
- *           * prod_{i unmatched} Lambda u * prod_{k unmatched} (1 - rho).
+ *           * prod_{i unmatched} Lambda u_i * prod_{k unmatched} (1 - rho).
  *
  * Dividing by the all-unmatched configuration, a matching's log-likelihood
  * ratio is sum_{(i,k) in M} g_ik with the pair gain
  *
- *   g_ik = log(rho J N(y_i; mu_k, S_k)) - log(Lambda u) - log(1 - rho).
+ *   g_ik = log(rho J N(y_i; mu_k, S_k)) - log(Lambda u) - delta_i - log(1 - rho).
  *
  * The most probable labelling maximises sum g_ik: a rectangular linear
  * assignment with cost -g_ik and a no-label option of cost 0 per point (pairs
@@ -48,6 +50,12 @@ export interface MatchModelParameters {
   readonly outlierDensity: number;
   /** Multiplies every S_k (>= 1 widens the cells while annealing; 1 = the model). */
   readonly inflation?: number;
+  /**
+   * Per point i, delta_i = log(u_i / u) >= 0: how much denser than uniform
+   * the outliers are at that point (excess-density.ts). Absent: 0 for every
+   * point. Indexed like the points the gains are computed for.
+   */
+  readonly outlierExcess?: Float64Array;
 }
 
 /** Sparse pair table: for each point, its candidate cells and gains g_ik. */
@@ -95,6 +103,8 @@ export function pairGains(
     Math.log(1 - params.detection) -
     0.5 * d * Math.log(2 * Math.PI * infl);
   const n = mapped.length;
+  const outlierExcess = params.outlierExcess ?? null;
+  if (outlierExcess && outlierExcess.length !== n) throw new RangeError(`pairGains: outlierExcess has ${outlierExcess.length} entries for ${n} points`);
   const rowStart = new Int32Array(n + 1);
   let capacity = Math.max(64, n * 32);
   let cells: Int32Array, gains: Float64Array, dists: Float64Array;
@@ -153,6 +163,7 @@ export function pairGains(
         }
       }
       const y0 = y[0], y1 = d > 1 ? y[1] : 0, y2 = d > 2 ? y[2] : 0;
+      const excess = outlierExcess ? outlierExcess[i] : 0;
       for (let c = from; c < to; c++) {
         const k = list[c];
         let e2: number;
@@ -174,7 +185,7 @@ export function pairGains(
           }
         }
         if (e2 > limit) continue;
-        const gain = cellBase[k] - half * e2;
+        const gain = cellBase[k] - half * e2 - excess;
         if (positiveOnly && !(gain > 0)) continue;
         cells[used] = k;
         gains[used] = gain;

@@ -58,6 +58,24 @@ describe('pairGains', () => {
     const expected = Math.log(0.8 * 1.3) + gaussianLogDensity(y, [0, 0, 0], s) - Math.log(3 * 1e-4) - Math.log(0.2);
     expect(g.gains[k]).toBeCloseTo(expected, 10);
   });
+
+  it('subtracts each point\'s outlier excess delta_i from its gains, and positiveOnly drops the pairs it makes non-positive', () => {
+    const rng = createRng(5);
+    const layout = generateLayout(rng, { cells: 40, dim: 3 });
+    const model = buildCellModel(templateFromLayout(layout, 10));
+    const grid = buildCellGrid(model, 3.5);
+    const params = { detection: 0.85, outliers: 8, outlierDensity: 1e-4 };
+    const points = layout.positions.slice(0, 12).map((p) => p.map((v) => v + 0.3));
+    const excess = Float64Array.from(points, (_, i) => (i % 3 === 0 ? 0 : 0.7 * i));
+    const plain = pairGains(model, grid, points, 1, params);
+    const guarded = pairGains(model, grid, points, 1, { ...params, outlierExcess: excess });
+    expect(Array.from(guarded.cells)).toEqual(Array.from(plain.cells));
+    for (let i = 0; i < points.length; i++)
+      for (let j = plain.rowStart[i]; j < plain.rowStart[i + 1]; j++) expect(guarded.gains[j]).toBeCloseTo(plain.gains[j] - excess[i], 12);
+    const positive = pairGains(model, grid, points, 1, { ...params, outlierExcess: excess }, true);
+    expect(positive.gains.length).toBe(Array.from(guarded.gains).filter((g) => g > 0).length);
+    expect(() => pairGains(model, grid, points, 1, { ...params, outlierExcess: new Float64Array(3) })).toThrow(RangeError);
+  });
 });
 
 describe('pairGains against a scan of every pair', () => {
