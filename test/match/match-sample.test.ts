@@ -187,19 +187,51 @@ describe('pose margin (is the orientation settled?)', () => {
   });
 
   it('when unsettled, also weighs modes that the halved screening dropped', () => {
-    // Seed 34 (full jitter, where orientation is close to a coin toss): among the three finalists of the
-    // halved screening none is right (9 cells right, margin 7.7); the screening without halving adds a
-    // mode that gives the points a higher likelihood and labels 28.
-    const { template, animal } = headOf('uniform', 34);
+    // Seed 39 (full jitter, where orientation is close to a coin toss): among the three finalists of the
+    // halved screening none is right (with UNSETTLED_EXTRA = 0: 3 cells right, margin 3.6); the screening
+    // without halving adds a mode that gives the points a higher likelihood and labels 19.
+    const { template, animal } = headOf('uniform', 39);
     const r = matchSample(template, animal.sample, { rng: createRng(1) });
     const correct = animal.truth.filter((t, i) => t !== null && r.proposals[i].label === t).length;
-    expect(correct).toBeGreaterThanOrEqual(20);
+    expect(correct).toBeGreaterThanOrEqual(15);
     expect(r.poseMargin as number).toBeLessThan(POSE_MARGIN_SETTLED);
   });
 
   it('is null for the baselines, which screen no other pose', () => {
     const { template, animal } = headOf('ganglia', 31);
     expect(matchSample(template, animal.sample, { rng: createRng(1), method: 'icp' }).poseMargin).toBeNull();
+  });
+});
+
+describe('slip search and the outliers\' excess density', () => {
+  it('leaves the basin one cell spacing off: a head whose screening ends in a slipped, turned pose', () => {
+    // Seed 122, uniform packing at half jitter: without the slip search (SLIP_POSES = 0) the matcher labels
+    // no cell right (margin 0.4); with it, 98 of the cells (December 2026).
+    const rng = createRng(122);
+    const layout = generateLayout(rng, { cells: 190, dim: 3, arrangement: 'uniform' });
+    const template = templateFromTraining(layout, rng, { members: 25, animal: { jitterScale: 0.5 } });
+    const animal = generateAnimal(layout, rng, 'head', { outlierFraction: 0.2, missingFraction: 0.15, jitterScale: 0.5 });
+    const r = matchSample(template, animal.sample, { rng: createRng(1) });
+    const correct = animal.truth.filter((t, i) => t !== null && r.proposals[i].label === t).length;
+    expect(correct).toBeGreaterThanOrEqual(80);
+  });
+
+  it('gives few points of a dense clump beside the head a label (1 of 84 here; 6 under a uniform outlier model)', () => {
+    const rng = createRng(41);
+    const layout = generateLayout(rng, { cells: 190, dim: 3, arrangement: 'ganglia' });
+    const template = templateFromTraining(layout, rng, { members: 25 });
+    let labelled = 0, clump = 0;
+    for (let a = 0; a < 3; a++) {
+      const animal = generateAnimal(layout, rng, `head${a}`, { outlierFraction: 0.15, clusteredOutlierShare: 1, missingFraction: 0.15 });
+      const r = matchSample(template, animal.sample, { rng: createRng(a) });
+      animal.truth.forEach((t, i) => {
+        if (t !== null) return;
+        clump++;
+        if (r.proposals[i].label !== null) labelled++;
+      });
+    }
+    expect(clump).toBeGreaterThan(60);
+    expect(labelled / clump).toBeLessThan(0.04);
   });
 });
 
