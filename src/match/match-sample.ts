@@ -644,19 +644,18 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       }
       return { expected, weight };
     };
-    const estepScoredBy = (objective: (g: PairGains, mg: Marginals) => number) => (y: Points) => {
-      const g = pairGains(model, prepared.pairGrid, y, jac, params);
-      const mg = sinkhorn(g, n, model.size, 40);
-      return { ...expectedCells(g, mg), objective: objective(g, mg) };
-    };
     // The kernel smoother climbs the greedy matching gain; the bend, whose BIC gate needs a likelihood,
     // climbs the points' likelihood L = sum_i log(1 + sum_k b_k W_ik) = -sum_i log P(i is an outlier).
-    const estep = estepScoredBy((g) => greedyMatchingGain(g, n, model.size));
-    const estepLikelihood = estepScoredBy((_g, mg) => {
+    const estep = (y: Points) => {
+      const g = pairGains(model, prepared.pairGrid, y, jac, params);
+      return { ...expectedCells(g, sinkhorn(g, n, model.size, 40)), objective: greedyMatchingGain(g, n, model.size) };
+    };
+    const likelihoodOf = (y: Points): number => {
+      const mg = sinkhorn(pairGains(model, prepared.pairGrid, y, jac, params), n, model.size, 40);
       let likelihood = 0;
       for (let i = 0; i < n; i++) likelihood -= Math.log(mg.outlier[i]);
       return likelihood;
-    });
+    };
     if (nonRigid && n >= 2 * (d + 1)) {
       const nr = nonRigidCorrect(estep, mapped, 6 * prepared.spacing, 8, 4);
       if (nr.iterations > 0) {
@@ -665,8 +664,9 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       }
     }
     if (bend && d >= 2) {
-      // correctBend leaves samples with too few points for its 3d coefficients as they are.
-      const b = correctBend(estepLikelihood, mapped, { axis: prepared.axes.map((row) => row[0]), centroid: prepared.centroid, halfLength: prepared.halfLength });
+      // correctBend leaves samples with too few points for its d - 1 curvatures as they are.
+      const across = prepared.axes[0].slice(1).map((_, j) => prepared.axes.map((row) => row[j + 1]));
+      const b = correctBend(likelihoodOf, mapped, { axis: prepared.axes.map((row) => row[0]), centroid: prepared.centroid, halfLength: prepared.halfLength, across, spacing: prepared.spacing });
       mapped = b.mapped;
       bendApplied = b.applied;
     }
