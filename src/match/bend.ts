@@ -15,7 +15,7 @@
  * The curvatures q_j (um) maximise the objective the matcher passes, the
  * points' likelihood L of softassign.ts (a sum over labellings), by compass
  * search (Kolda, Lewis & Torczon 2003, SIAM Review 45(3)): steps of half a
- * cell spacing, halved when no move along +-q_j gains, until a fortieth of a
+ * cell spacing, halved when no move along +-q_j gains, until a sixteenth of a
  * spacing or BEND_EVALUATIONS evaluations.
  *
  * The correction is kept only when its gain in the objective exceeds the
@@ -35,7 +35,7 @@
 import type { Points } from '../types.js';
 
 /** Objective evaluations of the compass search over the curvatures. */
-export const BEND_EVALUATIONS = 30;
+export const BEND_EVALUATIONS = 20;
 
 /** The long axis the bend is measured along, the directions it may take, and the search's length scale. */
 export interface BendAxis {
@@ -96,7 +96,7 @@ export function correctBend(objective: (mapped: Points) => number, mapped: Point
   let q = none.slice();
   let step = axis.spacing / 2;
   let used = 0;
-  while (step >= axis.spacing / 40 && used < evaluations) {
+  while (step >= axis.spacing / 16 && used < evaluations) {
     let moved = false;
     for (let j = 0; j < k && !moved && used < evaluations; j++)
       for (const sign of [1, -1]) {

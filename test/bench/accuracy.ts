@@ -1,13 +1,14 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S | --seeds S1,S2,...] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME[;NAME...]] [--per-animal] [--outliers F] [--clustered F] [--missing F] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S | --seeds S1,S2,...] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME[;NAME...]] [--per-animal] [--outliers F] [--clustered F] [--missing F] [--no-bend] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
  * default case; half of that in the half-jitter case), a bend of up to 3 um,
  * scale +-10%, any rotation, 15% missing cells, 20% outliers of which half in
- * one dense cluster beside the head (--clustered sets that share; --cells and --training change the 190
+ * one dense cluster beside the head (--clustered sets that share; --no-bend
+ * turns the matcher's bend correction off; --cells and --training change the 190
  * cells and the 25 training animals, --dim 2 gives flat animals, --bend the
  * largest bend, --crop cuts that share of each test animal's cells off by a
  * plane, --axial stretches the depth axis of training and test animals by a
@@ -79,6 +80,8 @@ const outlierFraction = Number(argValue('outliers', '0.2'));
 const missingFraction = Number(argValue('missing', '0.15'));
 /** Share of the outliers in one dense cluster beside the head (the generator's default: half). */
 const clusteredShare = Number(argValue('clustered', '0.5'));
+/** --no-bend: the matcher without its bend correction (matchSample's `bend: false`), to measure what the correction is worth. */
+const noBend = process.argv.includes('--no-bend');
 /** Cells in the invented layout, and training animals the template is built from. */
 const cellCount = Number(argValue('cells', '190'));
 const trainingCount = Number(argValue('training', '25'));
@@ -323,6 +326,7 @@ function runCase(spec: CaseSpec): void {
             rng: createRng(sampleSeed(seed, animal.sample.id)),
             method: v.method,
             nonRigid: v.nonRigid,
+            bend: !noBend,
             maxTrials,
           });
         } catch (e) {
