@@ -174,11 +174,10 @@ export const DEFAULT_NON_RIGID = false;
 
 /**
  * Whether the bend correction is on by default: on, because on the suite it
- * raised accuracy where heads bend by more than the jitter (seed 2026: half
- * jitter 0.929 -> 0.938, bends up to 6 um 0.829 -> 0.865) and lowered no case
- * by more than 0.024 of the ceiling, within the noise of 24-32 animals; over
- * five seeds (code of 9f74b9d) ganglia 0.940 -> 0.942, half jitter 0.880 ->
- * 0.889 (docs/algorithms.md, "Bend correction").
+ * raises accuracy. Over five seeds, without it and with it (the curvature
+ * chosen on the points' likelihood, December 2026): ganglia 0.943 -> 0.951
+ * of the ceiling, half jitter 0.935 -> 0.943; the least-squares correction
+ * before it gave 0.943 and 0.942 (docs/algorithms.md, "Bend correction").
  */
 export const DEFAULT_BEND = true;
 
