@@ -672,7 +672,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       if (b.applied && !nonRigidApplied) {
         // Pose and bend fitted jointly by alternating ascent on L: the pose polished again with the bend
         // applied (the final polish's steps), then the bend searched again from the polished pose (five
-        // seeds: ganglia 0.951 -> 0.956 of the ceiling, half jitter 0.943 -> 0.949; docs/algorithms.md,
+        // seeds: ganglia 0.951 -> 0.959 of the ceiling, half jitter 0.943 -> 0.949; docs/algorithms.md,
         // "Bend correction").
         const kind = transform.kind === 'affine' ? 'affine' : 'similarity';
         const bentLikelihood = (t: Transform): number =>
