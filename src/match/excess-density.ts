@@ -46,20 +46,19 @@ export const EXCESS_RADIUS_SPACINGS = 2;
 /** Poisson allowance: counts within Z sqrt(e + 1) of their expectation are not an excess. */
 export const EXCESS_ALLOWANCE_Z = 3;
 
-/**
- * delta_i for every mapped point (see the module comment). `spacing` is the
- * template's typical nearest-neighbour distance; `jacobian` |det| of the
- * sample -> template map; `params` gives rho, Lambda and u.
- */
-export function outlierExcess(model: CellModel, spacing: number, mapped: Points, jacobian: number, params: MatchModelParameters): Float64Array {
+/** Per cell, the precision of S_k + r^2 / (d + 2) I and the log of its normalising constant: the template's part of e_i. */
+export interface WidenedCells {
+  readonly radius: number;
+  readonly precisions: Float64Array;
+  readonly logNorm: Float64Array;
+}
+
+/** The widened cells of a template whose typical nearest-neighbour distance is `spacing` (computed once per template). */
+export function widenedCells(model: CellModel, spacing: number): WidenedCells {
   const d = model.dim;
-  const n = mapped.length;
   const K = model.size;
-  const r = EXCESS_RADIUS_SPACINGS * spacing;
-  const r2 = r * r;
-  const ballVolume = d === 3 ? (4 / 3) * Math.PI * r * r2 : d === 2 ? Math.PI * r2 : 2 * r;
-  const widen = r2 / (d + 2);
-  // Per cell: the precision of S_k + widen I and the log of its normalising constant.
+  const radius = EXCESS_RADIUS_SPACINGS * spacing;
+  const widen = (radius * radius) / (d + 2);
   const precisions = new Float64Array(K * d * d);
   const logNorm = new Float64Array(K);
   for (let k = 0; k < K; k++) {
@@ -68,6 +67,29 @@ export function outlierExcess(model: CellModel, spacing: number, mapped: Points,
     for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) precisions[k * d * d + a * d + b] = p[a][b];
     logNorm[k] = -0.5 * d * Math.log(2 * Math.PI) - 0.5 * logDeterminant(wide);
   }
+  return { radius, precisions, logNorm };
+}
+
+/**
+ * delta_i for every mapped point (see the module comment). `spacing` is the
+ * template's typical nearest-neighbour distance; `jacobian` |det| of the
+ * sample -> template map; `params` gives rho, Lambda and u; `cells` the
+ * template's widened cells, when the caller keeps them (widenedCells).
+ */
+export function outlierExcess(
+  model: CellModel,
+  spacing: number,
+  mapped: Points,
+  jacobian: number,
+  params: MatchModelParameters,
+  cells: WidenedCells = widenedCells(model, spacing),
+): Float64Array {
+  const d = model.dim;
+  const n = mapped.length;
+  const K = model.size;
+  const { radius: r, precisions, logNorm } = cells;
+  const r2 = r * r;
+  const ballVolume = d === 3 ? (4 / 3) * Math.PI * r * r2 : d === 2 ? Math.PI * r2 : 2 * r;
   const uniform = params.outliers * params.outlierDensity;
   const out = new Float64Array(n);
   const diff = new Float64Array(d);

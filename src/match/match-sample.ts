@@ -49,10 +49,10 @@ import { buildDensityGrid, boundingVolume, determinantFlat, MixtureScorer, type 
 import { learnCellDescriptors, rankCandidates, rankNormalize, rawDescriptors, type CellDescriptors } from './descriptors.js';
 import { exhaustiveHypotheses, isTinyProblem } from './exhaustive.js';
 import { compassSearch, emRefine, mapPoints, nonRigidCorrect, type MixtureContext } from './refine.js';
-import { applyBend, correctBend } from './bend.js';
+import { applyBend, correctBend, type BendAxis } from './bend.js';
 import { bestSlide } from './slide.js';
 import { rotationAbout, slipMoves } from './slips.js';
-import { outlierExcess } from './excess-density.js';
+import { outlierExcess, widenedCells, type WidenedCells } from './excess-density.js';
 import { searchPose, poseDistance, type Pair, type PoseEstimate, type PoseObjective, type SearchResult } from './ransac.js';
 import { toFlat } from './affine-flat.js';
 import { greedyMatching, greedyMatchingGain, pairGains, pointLikelihood, sinkhorn, type HardMatching, type Marginals, type MatchModelParameters, type PairGains } from './softassign.js';
@@ -205,6 +205,12 @@ export interface PreparedTemplate {
   readonly centroid: number[];
   /** Largest crowding of a cell in pseudo-animals (crowding.ts); points above it are crowded. */
   readonly crowdingLimit: number;
+  /** The slip search's moves (slips.ts), one cell spacing long. */
+  readonly slips: readonly Transform[];
+  /** The long axis, the directions across it and the spacing, for the bend correction (bend.ts). */
+  readonly bendAxis: BendAxis;
+  /** The cells widened for the outliers' excess density (excess-density.ts). */
+  readonly widened: WidenedCells;
 }
 
 const MAX_INFLATION = 1;
@@ -312,7 +318,23 @@ export function prepareTemplate(template: Template): PreparedTemplate {
     for (let a = 0; a < d; a++) along += (m[a] - centroid[a]) * axes[a][0];
     halfLength = Math.max(halfLength, Math.abs(along));
   }
-  const prepared = { model, descriptors, density, pairGrid, positiveGrids, minLogDet, spacing, halfLength, axes, centroid, crowdingLimit: crowdingLimit(model, createRng(0x5eed + 1)) };
+  const across = axes[0].slice(1).map((_, j) => axes.map((row) => row[j + 1]));
+  const prepared = {
+    model,
+    descriptors,
+    density,
+    pairGrid,
+    positiveGrids,
+    minLogDet,
+    spacing,
+    halfLength,
+    axes,
+    centroid,
+    crowdingLimit: crowdingLimit(model, createRng(0x5eed + 1)),
+    slips: slipMoves(axes, centroid, model.meanRows, spacing),
+    bendAxis: { axis: axes.map((row) => row[0]), centroid, halfLength, across, spacing },
+    widened: widenedCells(model, spacing),
+  };
   cache.set(template, prepared);
   return prepared;
 }
@@ -486,7 +508,6 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
   // Slip search on the best screened poses. Each pose's moves are scored with the outliers' excess
   // density at that pose (excess-density.ts), so that a slip cannot win by reaching for a clump of
   // outliers; the pose found is then ranked by its gain under the uniform outlier model like the rest.
-  const slips = slipMoves(prepared.axes, prepared.centroid, model.meanRows, prepared.spacing);
   const slipped = new Map<Transform, { transform: Transform; gain: number }>();
   const slipSearch = (c: { transform: Transform; gain: number }): { transform: Transform; gain: number } => {
     const known = slipped.get(c.transform);
@@ -497,7 +518,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     let best = start;
     for (let round = 0; round < SLIP_ROUNDS; round++) {
       let next = best;
-      for (const move of slips) {
+      for (const move of prepared.slips) {
         const r = hardEmRefine(prepared, points, composeTransforms(move, best.transform), 'similarity', limits, guarded, fixed, { iterations: SLIP_ITERATIONS });
         if (r.gain > next.gain + SLIP_MIN_GAIN) next = { transform: r.transform, gain: r.gain };
       }
@@ -610,13 +631,10 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
    * the same screening stage).
    */
   function finish(finalPose: Transform, otherModes: readonly { transform: Transform; gain: number }[] = [], bestGain = 0, poseMargin: number | null = null): MatchResult {
-    // The outliers' excess density at the chosen pose (excess-density.ts), then rho and Lambda for the
-    // final posterior.
-    params = { ...params, outlierExcess: outlierExcessAt(prepared, points, finalPose, params) };
-    params = estimateParameters(model, prepared.pairGrid, mapPoints(finalPose, points), jacobianOf(finalPose), params);
     let transform = finalPose;
     let mapped = mapPoints(transform, points);
     let jac = jacobianOf(transform);
+    params = finalParameters(prepared, mapped, jac, params);
 
     // Stage 3: non-rigid corrections, on the posterior-expected cell positions of the points.
     let nonRigidApplied = false, bendApplied = false;
@@ -664,8 +682,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
     }
     if (bend && d >= 2) {
       // correctBend leaves samples with too few points for its d - 1 curvatures as they are.
-      const across = prepared.axes[0].slice(1).map((_, j) => prepared.axes.map((row) => row[j + 1]));
-      const bendAxis = { axis: prepared.axes.map((row) => row[0]), centroid: prepared.centroid, halfLength: prepared.halfLength, across, spacing: prepared.spacing };
+      const bendAxis = prepared.bendAxis;
       const b = correctBend((y) => likelihoodOf(y), mapped, bendAxis);
       mapped = b.mapped;
       bendApplied = b.applied;
@@ -677,8 +694,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
         const kind = transform.kind === 'affine' ? 'affine' : 'similarity';
         const bentLikelihood = (t: Transform): number =>
           isPlausible(t, affineLimits) ? likelihoodOf(applyBend(mapPoints(t, points), b.curvatures, bendAxis), jacobianOf(t)) : -Infinity;
-        const steps = { rotation: 0.01, scale: 0.01, translation: prepared.spacing / 6, shear: 0.01 };
-        transform = compassSearch(bentLikelihood, transform, prepared.centroid, steps, kind, POLISH_EVALUATIONS).transform;
+        transform = compassSearch(bentLikelihood, transform, prepared.centroid, polishSteps(prepared.spacing), kind, POLISH_EVALUATIONS).transform;
         jac = jacobianOf(transform);
         const posed = mapPoints(transform, points);
         const again = correctBend((y) => likelihoodOf(y), posed, bendAxis);
@@ -790,8 +806,12 @@ function polishOnPointLikelihood(
     first = false;
     return value;
   };
-  const s = prepared.spacing;
-  return compassSearch(objective, start, prepared.centroid, { rotation: 0.01, scale: 0.01, translation: s / 6, shear: 0.01 }, kind, POLISH_EVALUATIONS).transform;
+  return compassSearch(objective, start, prepared.centroid, polishSteps(prepared.spacing), kind, POLISH_EVALUATIONS).transform;
+}
+
+/** Compass steps of the polishes on L: 0.01 rad, 0.01 log-scale and shear, a sixth of the cell spacing. */
+function polishSteps(spacing: number): { rotation: number; scale: number; translation: number; shear: number } {
+  return { rotation: 0.01, scale: 0.01, translation: spacing / 6, shear: 0.01 };
 }
 
 /**
@@ -922,7 +942,17 @@ function estimateParameters(model: CellModel, grid: CellGrid, mapped: Points, ja
 
 /** The outliers' excess density (excess-density.ts) with the sample mapped by t. */
 function outlierExcessAt(prepared: PreparedTemplate, points: Points, t: Transform, params: MatchModelParameters): Float64Array {
-  return outlierExcess(prepared.model, prepared.spacing, mapPoints(t, points), jacobianOf(t), params);
+  return outlierExcess(prepared.model, prepared.spacing, mapPoints(t, points), jacobianOf(t), params, prepared.widened);
+}
+
+/**
+ * The parameters of the last stage at mapped positions: the outliers' excess
+ * density there (excess-density.ts), then rho and Lambda from the posterior
+ * (estimateParameters).
+ */
+function finalParameters(prepared: PreparedTemplate, mapped: Points, jacobian: number, start: MatchModelParameters): MatchModelParameters {
+  const withExcess = { ...start, outlierExcess: outlierExcess(prepared.model, prepared.spacing, mapped, jacobian, start, prepared.widened) };
+  return estimateParameters(prepared.model, prepared.pairGrid, mapped, jacobian, withExcess);
 }
 
 function jacobianOf(t: Transform): number {
@@ -1244,8 +1274,7 @@ export function labelMappedPoints(
     outliers: Math.max(1, n - 0.85 * model.size),
     outlierDensity: 1 / boundingVolume(sample.coords),
   };
-  params = { ...params, outlierExcess: outlierExcess(model, prepared.spacing, mapped, jacobian, params) };
-  params = estimateParameters(model, prepared.pairGrid, mapped, jacobian, params);
+  params = finalParameters(prepared, mapped, jacobian, params);
   const gains = pairGains(model, prepared.pairGrid, mapped, jacobian, params);
   return assignAndScore(model, gains, mapped, fixedCell, sample.labels, options.hitRadius ?? DEFAULT_HIT_RADIUS, options.abstainBelow ?? 0);
 }
