@@ -49,6 +49,7 @@ import { buildDensityGrid, boundingVolume, determinantFlat, MixtureScorer, type 
 import { learnCellDescriptors, rankCandidates, rankNormalize, rawDescriptors, type CellDescriptors } from './descriptors.js';
 import { exhaustiveHypotheses, isTinyProblem } from './exhaustive.js';
 import { compassSearch, emRefine, mapPoints, nonRigidCorrect, type MixtureContext } from './refine.js';
+import { betheMarginals } from './belief-propagation.js';
 import { applyBend, correctBend, type BendAxis } from './bend.js';
 import { bestSlide } from './slide.js';
 import { rotationAbout, slipMoves } from './slips.js';
@@ -1172,7 +1173,7 @@ function assignAndScore(
     }
   // Posterior marginals on the free part only.
   const freeGains = restrictGains(gains, rows, colIndex);
-  const marg = sinkhorn(freeGains, rows.length, cols.length, 200, 1e-9);
+  const marg = betheMarginals(freeGains, rows.length, cols.length);
   // Posterior per row as a map column -> probability, averaged over the pose modes.
   const totalWeight = 1 + otherModes.reduce((a, m) => a + m.weight, 0);
   const rowPosterior: Map<number, number>[] = rows.map(() => new Map());
@@ -1189,7 +1190,7 @@ function assignAndScore(
   accumulate(freeGains, marg, 1);
   for (const m of otherModes) {
     const fg = restrictGains(m.gains, rows, colIndex);
-    accumulate(fg, sinkhorn(fg, rows.length, cols.length, 200, 1e-9), m.weight);
+    accumulate(fg, betheMarginals(fg, rows.length, cols.length), m.weight);
   }
   const cost: number[][] = rows.map(() => new Array<number>(cols.length).fill(Infinity));
   rows.forEach((i, r) => {

@@ -34,7 +34,12 @@
  * 2015, SIAM J. Sci. Comput. 37(2), section 3). Without competition
  * (b_k = 1) this is the exact per-point posterior W_ik / (1 + sum_l W_il)
  * of the mixture model; when several points claim one cell, their shares are
- * scaled down so that they sum to one.
+ * scaled down so that they sum to one. The balancing counts a point's own
+ * claim on a cell against it, so on dense problems its marginals are spread
+ * too wide; the confidences of the final proposals use the Bethe
+ * approximation of belief-propagation.ts instead, which is closer to exact.
+ * The balancing, cheaper and smooth in the pose, stays for the pose search,
+ * the bend and the polish.
  */
 import type { Points } from '../types.js';
 import type { CellGrid } from './cell-grid.js';
