@@ -35,6 +35,57 @@
 import type { Marginals, PairGains } from './softassign.js';
 
 export function betheMarginals(pairs: PairGains, points: number, cells: number, iterations = 200, tolerance = 1e-7): Marginals {
+  const { w, c } = messages(pairs, points, cells, iterations, tolerance);
+  const m = w.length, rowStart = pairs.rowStart, cellOf = pairs.cells;
+  const pair = new Float64Array(m);
+  const outlier = new Float64Array(points);
+  const claimed = new Float64Array(cells);
+  for (let i = 0; i < points; i++) {
+    let s = 1;
+    for (let j = rowStart[i]; j < rowStart[i + 1]; j++) s += w[j] * c[j];
+    outlier[i] = 1 / s;
+    for (let j = rowStart[i]; j < rowStart[i + 1]; j++) {
+      pair[j] = (w[j] * c[j]) / s;
+      claimed[cellOf[j]] += pair[j];
+    }
+  }
+  const missing = new Float64Array(cells);
+  for (let k = 0; k < cells; k++) missing[k] = Math.max(0, 1 - claimed[k]);
+  return { pair, outlier, missing };
+}
+
+/**
+ * The Bethe approximation of log Z, Z = sum over all partial matchings M of
+ * prod_{(i,k) in M} W_ik (relative to "all points are outliers"), at the
+ * belief-propagation fixed point: with the factors' normalisers and one
+ * correction per pair variable, which sits in two factors (Yedidia, Freeman &
+ * Weiss 2005, IEEE Trans. Inf. Theory 51(7), eq. 23 rewritten with messages),
+ *
+ *   log Z_B = sum_i log(1 + sum_k W_ik c_ik) + sum_k log(1 + sum_i W_ik r_ik) - sum_(i,k) log(1 + W_ik r_ik c_ik).
+ *
+ * Exact when the pairs form no cycle; for the permanent, Z_B <= Z (Gurvits
+ * 2011; Vontobel 2013).
+ */
+export function betheLogPartition(pairs: PairGains, points: number, cells: number, iterations = 200, tolerance = 1e-7): number {
+  const { w, c, r } = messages(pairs, points, cells, iterations, tolerance);
+  const rowStart = pairs.rowStart, cellOf = pairs.cells;
+  const colSum = new Float64Array(cells).fill(1);
+  let value = 0;
+  for (let i = 0; i < points; i++) {
+    let s = 1;
+    for (let j = rowStart[i]; j < rowStart[i + 1]; j++) {
+      s += w[j] * c[j];
+      colSum[cellOf[j]] += w[j] * r[j];
+      value -= Math.log1p(w[j] * r[j] * c[j]);
+    }
+    value += Math.log(s);
+  }
+  for (let k = 0; k < cells; k++) value += Math.log(colSum[k]);
+  return value;
+}
+
+/** The converged messages (module comment): W_ik, the cell-to-pair c_ik and the point-to-pair r_ik. */
+function messages(pairs: PairGains, points: number, cells: number, iterations: number, tolerance: number): { w: Float64Array; c: Float64Array; r: Float64Array } {
   const m = pairs.rowStart[points];
   const rowStart = pairs.rowStart, cellOf = pairs.cells;
   const w = new Float64Array(m);
@@ -51,25 +102,11 @@ export function betheMarginals(pairs: PairGains, points: number, cells: number, 
   const c = new Float64Array(m).fill(1);
   const r = new Float64Array(m);
   const term = new Float64Array(m);
-  // Each message excludes its own pair from a group's sum; the sum of the others is formed from a
+  // Each message leaves its own pair out of a group's sum; the sum of the others is formed from a
   // prefix and a suffix sum, so that no large term is subtracted from a sum that contains it.
   let change = Infinity, lastChange = Infinity, damped = false;
   for (let it = 0; it < iterations && change > tolerance; it++) {
-    for (let j = 0; j < m; j++) term[j] = w[j] * c[j];
-    for (let i = 0; i < points; i++) {
-      const from = rowStart[i], to = rowStart[i + 1];
-      let prefix = 0;
-      for (let j = from; j < to; j++) {
-        r[j] = prefix; // the prefix sum for now
-        prefix += term[j];
-      }
-      let suffix = 0;
-      for (let j = to - 1; j >= from; j--) {
-        const t = term[j];
-        r[j] = 1 / (1 + r[j] + suffix);
-        suffix += t;
-      }
-    }
+    pointMessages(w, c, r, term, rowStart, points);
     for (let j = 0; j < m; j++) term[j] = w[j] * r[j];
     change = 0;
     for (let k = 0; k < cells; k++) {
@@ -95,19 +132,26 @@ export function betheMarginals(pairs: PairGains, points: number, cells: number, 
     if (change > lastChange) damped = true;
     lastChange = change;
   }
-  const pair = new Float64Array(m);
-  const outlier = new Float64Array(points);
-  const claimed = new Float64Array(cells);
+  // r from the final c (the loop leaves them one half-sweep behind).
+  pointMessages(w, c, r, term, rowStart, points);
+  return { w, c, r };
+}
+
+/** r_ik = 1 / (1 + sum_{l != k} W_il c_il) for every pair, into r (term is scratch space). */
+function pointMessages(w: Float64Array, c: Float64Array, r: Float64Array, term: Float64Array, rowStart: Int32Array, points: number): void {
+  for (let j = 0; j < w.length; j++) term[j] = w[j] * c[j];
   for (let i = 0; i < points; i++) {
-    let s = 1;
-    for (let j = rowStart[i]; j < rowStart[i + 1]; j++) s += w[j] * c[j];
-    outlier[i] = 1 / s;
-    for (let j = rowStart[i]; j < rowStart[i + 1]; j++) {
-      pair[j] = (w[j] * c[j]) / s;
-      claimed[cellOf[j]] += pair[j];
+    const from = rowStart[i], to = rowStart[i + 1];
+    let prefix = 0;
+    for (let j = from; j < to; j++) {
+      r[j] = prefix; // the prefix sum for now
+      prefix += term[j];
+    }
+    let suffix = 0;
+    for (let j = to - 1; j >= from; j--) {
+      const t = term[j];
+      r[j] = 1 / (1 + r[j] + suffix);
+      suffix += t;
     }
   }
-  const missing = new Float64Array(cells);
-  for (let k = 0; k < cells; k++) missing[k] = Math.max(0, 1 - claimed[k]);
-  return { pair, outlier, missing };
 }
