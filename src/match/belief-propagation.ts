@@ -54,38 +54,8 @@ export function betheMarginals(pairs: PairGains, points: number, cells: number, 
   return { pair, outlier, missing };
 }
 
-/**
- * The Bethe approximation of log Z, Z = sum over all partial matchings M of
- * prod_{(i,k) in M} W_ik (relative to "all points are outliers"), at the
- * belief-propagation fixed point: with the factors' normalisers and one
- * correction per pair variable, which sits in two factors (Yedidia, Freeman &
- * Weiss 2005, IEEE Trans. Inf. Theory 51(7), eq. 23 rewritten with messages),
- *
- *   log Z_B = sum_i log(1 + sum_k W_ik c_ik) + sum_k log(1 + sum_i W_ik r_ik) - sum_(i,k) log(1 + W_ik r_ik c_ik).
- *
- * Exact when the pairs form no cycle; for the permanent, Z_B <= Z (Gurvits
- * 2011; Vontobel 2013).
- */
-export function betheLogPartition(pairs: PairGains, points: number, cells: number, iterations = 200, tolerance = 1e-7): number {
-  const { w, c, r } = messages(pairs, points, cells, iterations, tolerance);
-  const rowStart = pairs.rowStart, cellOf = pairs.cells;
-  const colSum = new Float64Array(cells).fill(1);
-  let value = 0;
-  for (let i = 0; i < points; i++) {
-    let s = 1;
-    for (let j = rowStart[i]; j < rowStart[i + 1]; j++) {
-      s += w[j] * c[j];
-      colSum[cellOf[j]] += w[j] * r[j];
-      value -= Math.log1p(w[j] * r[j] * c[j]);
-    }
-    value += Math.log(s);
-  }
-  for (let k = 0; k < cells; k++) value += Math.log(colSum[k]);
-  return value;
-}
-
-/** The converged messages (module comment): W_ik, the cell-to-pair c_ik and the point-to-pair r_ik. */
-function messages(pairs: PairGains, points: number, cells: number, iterations: number, tolerance: number): { w: Float64Array; c: Float64Array; r: Float64Array } {
+/** W_ik and the converged cell-to-pair messages c_ik (module comment). */
+function messages(pairs: PairGains, points: number, cells: number, iterations: number, tolerance: number): { w: Float64Array; c: Float64Array } {
   const m = pairs.rowStart[points];
   const rowStart = pairs.rowStart, cellOf = pairs.cells;
   const w = new Float64Array(m);
@@ -132,9 +102,7 @@ function messages(pairs: PairGains, points: number, cells: number, iterations: n
     if (change > lastChange) damped = true;
     lastChange = change;
   }
-  // r from the final c (the loop leaves them one half-sweep behind).
-  pointMessages(w, c, r, term, rowStart, points);
-  return { w, c, r };
+  return { w, c };
 }
 
 /** r_ik = 1 / (1 + sum_{l != k} W_il c_il) for every pair, into r (term is scratch space). */
