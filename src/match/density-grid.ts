@@ -16,11 +16,13 @@
  *   L(A, t) = sum_i log( (1 - pi_0) |det A| f(A x_i + t) + pi_0 u )
  *
  * with outlier share pi_0 and a uniform outlier density u = 1 / V over the
- * sample's bounding box V. The Jacobian |det A| makes the likelihood a density
+ * sample's bounding box V along its principal axes (boundingVolume). The
+ * Jacobian |det A| makes the likelihood a density
  * of the sample's points, so that shrinking the sample into the dense centre
  * of the template is not rewarded.
  */
 import type { CellModel } from './cell-model.js';
+import { symmetricEigen } from '../geometry/index.js';
 import type { FlatAffine } from './affine-flat.js';
 
 export interface DensityGrid {
@@ -253,15 +255,27 @@ export class MixtureScorer {
   }
 }
 
-/** Volume of the axis-aligned bounding box of the points, each side at least 1e-6 of the largest. */
+/**
+ * Volume of the points' bounding box along their principal axes (the
+ * eigenvectors of their covariance), each side at least 1e-6 of the largest:
+ * the same whatever the sample's orientation.
+ */
 export function boundingVolume(points: readonly (readonly number[])[]): number {
-  const d = points[0].length;
+  const d = points[0].length, n = points.length;
+  const mean = new Array<number>(d).fill(0);
+  for (const p of points) for (let a = 0; a < d; a++) mean[a] += p[a] / n;
+  const cov = Array.from({ length: d }, () => new Array<number>(d).fill(0));
+  for (const p of points)
+    for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) cov[a][b] += ((p[a] - mean[a]) * (p[b] - mean[b])) / n;
+  const { vectors } = symmetricEigen(cov);
   const sides: number[] = [];
-  for (let a = 0; a < d; a++) {
+  for (let j = 0; j < d; j++) {
     let lo = Infinity, hi = -Infinity;
     for (const p of points) {
-      lo = Math.min(lo, p[a]);
-      hi = Math.max(hi, p[a]);
+      let s = 0;
+      for (let a = 0; a < d; a++) s += (p[a] - mean[a]) * vectors[a][j];
+      lo = Math.min(lo, s);
+      hi = Math.max(hi, s);
     }
     sides.push(hi - lo);
   }

@@ -7,7 +7,8 @@
  * outliers, cells outside M are missing. Each cell is detected with
  * probability rho; detected cell k puts its point at y ~ N(mu_k, S_k);
  * outliers form a Poisson process of intensity Lambda u_i at point i, with
- * u = 1 / V (V the sample's bounding-box volume, in the sample's frame) and
+ * u = 1 / V (V the volume of the sample's bounding box along its principal
+ * axes: density-grid.ts, boundingVolume) and
  * u_i = u exp(delta_i), delta_i >= 0 where outliers are known to crowd
  * (excess-density.ts; delta_i = 0 everywhere unless given). The likelihood
  * of a matching is, up to terms that do not depend on it,
