@@ -34,6 +34,7 @@
  */
 import type { Marginals, PairGains } from './softassign.js';
 
+/** P(i -> k) per pair, P(i is an outlier) and P(cell k is missing), from the converged messages. */
 export function betheMarginals(pairs: PairGains, points: number, cells: number, iterations = 200, tolerance = 1e-7): Marginals {
   const { w, c } = messages(pairs, points, cells, iterations, tolerance);
   const m = w.length, rowStart = pairs.rowStart, cellOf = pairs.cells;

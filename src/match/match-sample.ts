@@ -1187,7 +1187,7 @@ function assignAndScore(
       colIndex[k] = cols.length;
       cols.push(k);
     }
-  // Posterior marginals on the free part only.
+  // Posterior marginals on the free part only, by belief propagation (belief-propagation.ts).
   const freeGains = restrictGains(gains, rows, colIndex);
   const marg = betheMarginals(freeGains, rows.length, cols.length);
   // Posterior per row as a map column -> probability, averaged over the pose modes.
