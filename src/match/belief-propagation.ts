@@ -9,8 +9,8 @@
  * each with weight 1. With one binary variable per pair and an "at most one"
  * factor per point and per cell, the messages are, as likelihood ratios
  * (Bayati, Shah & Sharma 2008, IEEE Trans. Inf. Theory 54(3), for the
- * max-product form; Huang & Jebara 2009, AISTATS, and Chertkov & Yedidia
- * 2013, J. Stat. Mech. P12018, for the sum-product form on permanents):
+ * max-product form; Huang & Jebara 2009, arXiv:0908.1769, and Chertkov &
+ * Yedidia 2013, arXiv:1108.0065, for the sum-product form on permanents):
  *
  *   r_ik = 1 / (1 + sum_{l != k} W_il c_il)     (point i to pair (i, k))
  *   c_ik = 1 / (1 + sum_{j != i} W_jk r_jk)     (cell k to pair (i, k))
