@@ -1208,11 +1208,15 @@ function assignAndScore(
     const fg = restrictGains(m.gains, rows, colIndex);
     accumulate(fg, betheMarginals(fg, rows.length, cols.length), m.weight);
   }
+  // Maximum expected accuracy: among the pairs with g_ik > 0 within the hit radius, the one-to-one
+  // assignment with the largest sum of posterior marginals P(i -> k), i.e. the most correct labels
+  // expected under the model (by linearity of expectation); no label costs 0. The most probable
+  // joint labelling (cost -g_ik) labelled fewer cells right (docs/algorithms.md, "Assignment").
   const cost: number[][] = rows.map(() => new Array<number>(cols.length).fill(Infinity));
   rows.forEach((i, r) => {
     for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++) {
-      const g = freeGains.gains[j];
-      if (g > 0 && freeGains.distances[j] <= radius * radius) cost[r][freeGains.cells[j]] = -g;
+      const c = freeGains.cells[j];
+      if (freeGains.gains[j] > 0 && freeGains.distances[j] <= radius * radius) cost[r][c] = -(rowPosterior[r].get(c) ?? 0);
     }
   });
   const assignment = rows.length > 0 && cols.length > 0 ? assignWithAbstention(cost, rows.map(() => 0)) : null;
