@@ -11,11 +11,11 @@ import { formatCsv, writeFileAtomic } from '../io/write.js';
 import { crossValidate, type CrossValidationResult } from '../evaluate/cross-validate.js';
 import { chooseHitRadius, type HitRadiusChoice } from '../evaluate/hit-radius.js';
 import type { AccuracyReport } from '../evaluate/metrics.js';
-import { POSE_MARGIN_SETTLED, poseUnsettled } from '../match/match-sample.js';
+import { POSE_MARGIN_SETTLED, poseUnsettled, type Assignment } from '../match/match-sample.js';
 import { crossValidationScheme, renderEvaluateHtml } from '../report/evaluate-report.js';
 import { fixed } from '../report/svg/common.js';
 import { VERSION } from '../version.js';
-import { hitRadiusOption, integerOption, voxelSizeOption } from './options.js';
+import { assignOption, hitRadiusOption, integerOption, voxelSizeOption } from './options.js';
 import type { CliIo, CommandRegistrar } from './main.js';
 
 export interface EvaluateOptions {
@@ -25,6 +25,8 @@ export interface EvaluateOptions {
   readonly hitRadius?: number | 'auto';
   readonly maxTrials?: number;
   readonly nonrigid?: boolean;
+  /** The final labelling rule (MatchOptions.assignment). */
+  readonly assign?: Assignment;
   readonly json?: boolean;
   readonly csv?: boolean;
   readonly html?: string;
@@ -103,7 +105,7 @@ export function runEvaluate(paths: readonly string[], o: EvaluateOptions, io: Cl
   const base = {
     folds: o.folds,
     seed: o.seed,
-    match: { method: o.method, maxTrials: o.maxTrials, nonRigid: o.nonrigid },
+    match: { method: o.method, maxTrials: o.maxTrials, nonRigid: o.nonrigid, assignment: o.assign },
   };
   let choice: HitRadiusChoice | null = null;
   let hitRadius: number | undefined;
@@ -131,6 +133,7 @@ export function registerEvaluate(program: Command, io: CliIo): void {
     .option('--max-trials <n>', 'cap on hypotheses per sample', integerOption(1))
     .option('--nonrigid', 'add a smooth non-rigid correction after the pose fit (off by default)')
     .option('--no-nonrigid', 'no non-rigid correction (the default)')
+    .addOption(assignOption())
     .addOption(new Option('--json', 'print the full report as JSON').conflicts('csv'))
     .addOption(new Option('--csv', 'print one row per scored point as CSV').conflicts('json'))
     .option('--html <file>', 'also write the self-contained HTML report')

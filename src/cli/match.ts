@@ -36,13 +36,13 @@ import {
   sampleIdFromPath,
   writeFileAtomic,
 } from '../io/index.js';
-import { DEFAULT_HIT_RADIUS, POSE_MARGIN_SETTLED, poseUnsettled, type MatchOptions } from '../match/match-sample.js';
+import { DEFAULT_HIT_RADIUS, POSE_MARGIN_SETTLED, poseUnsettled, type Assignment, type MatchOptions } from '../match/match-sample.js';
 import { matchSampleStream, type SampleJob, type TimedResult } from '../match/parallel.js';
 import { closeCalls, MATCH_REPORT_FIGURES, matchedFigureInput, mergeCloseCalls, renderMatchHtml, type CloseCall } from '../report/match-report.js';
 import type { MatchedFigureInput } from '../report/svg/matched-figure.js';
 import type { Sample, Template } from '../types.js';
 import { VERSION } from '../version.js';
-import { accuracyFromOption, hitRadiusOption, integerOption, positiveNumberOption, voxelSizeOption } from './options.js';
+import { accuracyFromOption, assignOption, hitRadiusOption, integerOption, positiveNumberOption, voxelSizeOption } from './options.js';
 import { CommandFailed, type CliIo, type CommandRegistrar } from './main.js';
 
 export interface MatchCommandOptions {
@@ -56,6 +56,8 @@ export interface MatchCommandOptions {
   /** false under --no-bend. */
   readonly bend?: boolean;
   readonly abstainBelow?: number;
+  /** The final labelling rule (MatchOptions.assignment). */
+  readonly assign: Assignment;
   /** Other labels per point in the CSVs (0-2; default 0). */
   readonly alternatives?: number;
   readonly force?: boolean;
@@ -99,6 +101,8 @@ export interface MatchSummary {
   readonly template: string;
   readonly seed: number;
   readonly method: string;
+  /** The final labelling rule: 'map' (most probable joint labelling) or 'mea' (most labels right in expectation). */
+  readonly assignment: Assignment;
   readonly hitRadius: number;
   readonly hitRadiusChoice: HitRadiusChoice | null;
   readonly samples: readonly MatchSampleSummary[];
@@ -235,7 +239,7 @@ export async function runMatch(
 
   let hitRadius = o.hitRadius === 'auto' || o.hitRadius === undefined ? DEFAULT_HIT_RADIUS : o.hitRadius;
   let choice: HitRadiusChoice | null = null;
-  const base: Omit<MatchOptions, 'rng'> = { method: o.method, maxTrials: o.maxTrials, nonRigid: o.nonrigid, bend: o.bend, abstainBelow: o.abstainBelow };
+  const base: Omit<MatchOptions, 'rng'> = { method: o.method, maxTrials: o.maxTrials, nonRigid: o.nonrigid, bend: o.bend, abstainBelow: o.abstainBelow, assignment: o.assign };
   if (o.hitRadius === 'auto') {
     const members = memberSamples(template);
     if (members.length < 3) {
@@ -344,6 +348,7 @@ export async function runMatch(
     template: templatePath,
     seed: o.seed,
     method: o.method,
+    assignment: o.assign,
     hitRadius,
     hitRadiusChoice: choice,
     samples,
@@ -423,6 +428,7 @@ export const registerMatch: CommandRegistrar = (program: Command, io: CliIo) => 
     .option('--nonrigid', 'add a smooth non-rigid correction after the pose fit (off by default)')
     .option('--no-nonrigid', 'no non-rigid correction (the default)')
     .option('--no-bend', 'no bend correction (by default a bend along the template\'s long axis is fitted after the pose and kept when it pays)')
+    .addOption(assignOption())
     .option('--abstain-below <p>', 'leave points unlabelled when the confidence of their proposal is below p (default 0)', positiveNumberOption(true))
     .option('--alternatives <n>', `add to each CSV row the n most probable other labels and their posterior probabilities (columns alternative_1, alternative_1_probability, ...; n from 0 to ${MAX_ALTERNATIVES}, default 0)`, integerOption(0))
     .option('--force', 'replace existing output files')

@@ -2,9 +2,9 @@
  * Commander argument parsers shared by the commands. Each throws commander's
  * InvalidArgumentError (exit code 2, with the usage hint) saying what was
  * expected and what was given. Also the reading of --accuracy-from, which
- * two commands share.
+ * two commands share, and the --assign option of match and evaluate.
  */
-import { InvalidArgumentError } from 'commander';
+import { InvalidArgumentError, Option } from 'commander';
 import { UsageError } from '../errors.js';
 import { readTextFile } from '../io/text-file.js';
 import { parseVoxelSize } from '../io/sample-reader.js';
@@ -65,4 +65,14 @@ export function hitRadiusOption(text: string): number | 'auto' {
   const v = Number(text);
   if (text.trim() === '' || !(v > 0) || !Number.isFinite(v)) throw new InvalidArgumentError(`expected a positive number or "auto", got "${text}"`);
   return v;
+}
+
+/** `--assign map|mea` (MatchOptions.assignment), shared by cairn match and cairn evaluate. */
+export function assignOption(): Option {
+  return new Option(
+    '--assign <rule>',
+    'how the labels are chosen: map, the most probable labelling as a whole (default); mea, the labelling with the most labels right in expectation (the sum of their posterior probabilities)',
+  )
+    .choices(['map', 'mea'])
+    .default('map');
 }

@@ -112,9 +112,21 @@ export interface MatchOptions {
   bend?: boolean;
   /** Proposals whose confidence is below this are left unlabelled (default 0: keep every assignment). */
   abstainBelow?: number;
+  /** How the final one-to-one labelling is chosen (Assignment; default DEFAULT_ASSIGNMENT). */
+  assignment?: Assignment;
   /** Plausible scale range of the sample -> template map (default DEFAULT_SCALE_RANGE). */
   scaleRange?: readonly [number, number];
 }
+
+/**
+ * The final labelling: 'map', the most probable joint labelling (linear
+ * assignment on the costs -g_ik, the pairs' negative log-likelihood ratios);
+ * 'mea', maximum expected accuracy (costs -P(i -> k), the posterior marginals:
+ * the labelling with the most labels right in expectation). Both over the same
+ * allowed pairs, with no label at cost 0.
+ */
+export type Assignment = 'map' | 'mea';
+export const DEFAULT_ASSIGNMENT: Assignment = 'map';
 
 export interface Proposal {
   label: string | null;
@@ -726,7 +738,7 @@ export function matchSample(template: Template, sample: Sample, options: MatchOp
       // A mode of weight <= 1e-3 moves no confidence by more than 0.001; leaving it out saves its posterior.
       .filter((m) => m.weight > 1e-3)
       .map((m) => ({ gains: pairGains(model, prepared.pairGrid, mapPoints(m.transform, points), jacobianOf(m.transform), params), weight: m.weight }));
-    const proposals = assignAndScore(model, gains, mapped, fixedCell, sample.labels, radius, options.abstainBelow ?? 0, modes);
+    const proposals = assignAndScore(model, gains, mapped, fixedCell, sample.labels, radius, options.abstainBelow ?? 0, options.assignment ?? DEFAULT_ASSIGNMENT, modes);
     let hits = 0, score = 0;
     proposals.forEach((p, i) => {
       if (p.label !== null && p.distance !== null && p.distance < radius) hits++;
@@ -1173,6 +1185,7 @@ function assignAndScore(
   givenLabels: readonly (string | null)[],
   radius: number,
   abstainBelow: number,
+  rule: Assignment,
   otherModes: readonly { gains: PairGains; weight: number }[] = [],
 ): Proposal[] {
   const n = mapped.length, K = model.size;
@@ -1208,15 +1221,15 @@ function assignAndScore(
     const fg = restrictGains(m.gains, rows, colIndex);
     accumulate(fg, betheMarginals(fg, rows.length, cols.length), m.weight);
   }
-  // Maximum expected accuracy: among the pairs with g_ik > 0 within the hit radius, the one-to-one
-  // assignment with the largest sum of posterior marginals P(i -> k), i.e. the most correct labels
-  // expected under the model (by linearity of expectation); no label costs 0. The most probable
-  // joint labelling (cost -g_ik) labelled fewer cells right (docs/algorithms.md, "Assignment").
+  // Among the pairs with g_ik > 0 within the hit radius: 'map' maximises the summed gains (the most
+  // probable joint labelling), 'mea' the summed posterior marginals P(i -> k), i.e. the number of
+  // labels right expected under the model (by linearity of expectation); no label costs 0.
   const cost: number[][] = rows.map(() => new Array<number>(cols.length).fill(Infinity));
   rows.forEach((i, r) => {
     for (let j = freeGains.rowStart[r]; j < freeGains.rowStart[r + 1]; j++) {
       const c = freeGains.cells[j];
-      if (freeGains.gains[j] > 0 && freeGains.distances[j] <= radius * radius) cost[r][c] = -(rowPosterior[r].get(c) ?? 0);
+      if (freeGains.gains[j] > 0 && freeGains.distances[j] <= radius * radius)
+        cost[r][c] = rule === 'mea' ? -(rowPosterior[r].get(c) ?? 0) : -freeGains.gains[j];
     }
   });
   const assignment = rows.length > 0 && cols.length > 0 ? assignWithAbstention(cost, rows.map(() => 0)) : null;
@@ -1284,7 +1297,7 @@ export function labelMappedPoints(
   sample: Sample,
   mapped: Points,
   jacobian: number,
-  options: { hitRadius?: number; abstainBelow?: number } = {},
+  options: { hitRadius?: number; abstainBelow?: number; assignment?: Assignment } = {},
 ): Proposal[] {
   const prepared = prepareTemplate(template);
   const { model } = prepared;
@@ -1297,7 +1310,7 @@ export function labelMappedPoints(
   };
   params = finalParameters(prepared, mapped, jacobian, params);
   const gains = pairGains(model, prepared.pairGrid, mapped, jacobian, params);
-  return assignAndScore(model, gains, mapped, fixedCell, sample.labels, options.hitRadius ?? DEFAULT_HIT_RADIUS, options.abstainBelow ?? 0);
+  return assignAndScore(model, gains, mapped, fixedCell, sample.labels, options.hitRadius ?? DEFAULT_HIT_RADIUS, options.abstainBelow ?? 0, options.assignment ?? DEFAULT_ASSIGNMENT);
 }
 
 /**

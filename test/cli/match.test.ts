@@ -79,6 +79,25 @@ describe('cairn match', () => {
     expect(summary.samples.map((e: { bend: boolean }) => e.bend)).toEqual([false, false, false]);
   });
 
+  it('records the labelling rule in summary.json: map by default, mea under --assign mea; refuses another', async () => {
+    const outMap = join(dir, 'out-map');
+    const outMea = join(dir, 'out-mea');
+    expect((await run('match', templateFile, sampleFiles[0], '-o', outMap, '--seed', '5', '--max-trials', '100')).code).toBe(0);
+    expect((await run('match', templateFile, sampleFiles[0], '-o', outMea, '--seed', '5', '--max-trials', '100', '--assign', 'mea')).code).toBe(0);
+    expect(JSON.parse(readFileSync(join(outMap, 'summary.json'), 'utf8')).assignment).toBe('map');
+    expect(JSON.parse(readFileSync(join(outMea, 'summary.json'), 'utf8')).assignment).toBe('mea');
+    // Same pose search (same seed): the 'mea' labels' summed confidence is at least the default's.
+    const sum = (out: string) =>
+      readFileSync(join(out, 'probe0.csv'), 'utf8')
+        .trim()
+        .split('\n')
+        .slice(1)
+        .map((l) => l.split(','))
+        .reduce((a, f) => a + (f[5] === '' ? 0 : Number(f[6])), 0);
+    expect(sum(outMea)).toBeGreaterThanOrEqual(sum(outMap) - 1e-9);
+    expect((await run('match', templateFile, sampleFiles[0], '-o', join(dir, 'x'), '--assign', 'best')).code).toBe(2);
+  });
+
   it('reports crowded points (a dense clump beside the head) in summary.json and on stdout', async () => {
     const rng = createRng(778);
     const layout = generateLayout(rng, { cells: 40, dim: 3 });

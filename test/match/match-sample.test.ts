@@ -354,18 +354,21 @@ describe('matchSample input checks', () => {
   });
 });
 
-describe('labelMappedPoints: maximum expected accuracy', () => {
+describe('labelMappedPoints: maximum expected accuracy (assignment mea)', () => {
   it('never leaves a free cell that a labelled point holds more probably than its own label', () => {
     // Crowded cells (full jitter, uniform packing): many points have close alternatives. Under the
     // assignment that maximises the summed posterior of the labels, moving one point to a cell no other
-    // point holds cannot raise that sum; the most probable joint labelling (cost -g_ik) breaks this.
+    // point holds cannot raise that sum; the most probable joint labelling ('map', cost -g_ik) breaks this,
+    // as the last check shows.
     const rng = createRng(31);
     const layout = generateLayout(rng, { cells: 80, dim: 3 });
     const template = templateFromTraining(layout, rng, { members: 15 });
     let checked = 0;
     for (let s = 0; s < 6; s++) {
       const animal = generateAnimal(layout, rng, `mea${s}`, { outlierFraction: 0.15, missingFraction: 0.15 });
-      const proposals = labelMappedPoints(template, animal.sample, animal.sample.coords.map((p) => animal.toLayoutFrame(p)), 1 / animal.scale ** 3);
+      const proposals = labelMappedPoints(template, animal.sample, animal.sample.coords.map((p) => animal.toLayoutFrame(p)), 1 / animal.scale ** 3, {
+        assignment: 'mea',
+      });
       const held = new Set(proposals.map((p) => p.label).filter((l) => l !== null));
       for (const p of proposals) {
         if (p.label === null) continue;
@@ -377,5 +380,25 @@ describe('labelMappedPoints: maximum expected accuracy', () => {
       }
     }
     expect(checked).toBeGreaterThan(20);
+  });
+
+  it('differs from the default most probable labelling on crowded cells', () => {
+    const rng = createRng(31);
+    const layout = generateLayout(rng, { cells: 80, dim: 3 });
+    const template = templateFromTraining(layout, rng, { members: 15 });
+    let differ = 0;
+    for (let s = 0; s < 6; s++) {
+      const animal = generateAnimal(layout, rng, `mea${s}`, { outlierFraction: 0.15, missingFraction: 0.15 });
+      const mapped = animal.sample.coords.map((p) => animal.toLayoutFrame(p));
+      const map = labelMappedPoints(template, animal.sample, mapped, 1 / animal.scale ** 3);
+      const mea = labelMappedPoints(template, animal.sample, mapped, 1 / animal.scale ** 3, { assignment: 'mea' });
+      map.forEach((p, i) => {
+        if (p.label !== mea[i].label) differ++;
+      });
+      // 'mea' maximises the labels' summed posterior over the same allowed pairs: never below the default's sum.
+      const sumConfidence = (ps: typeof map) => ps.reduce((a, p) => a + (p.label === null ? 0 : p.confidence), 0);
+      expect(sumConfidence(mea)).toBeGreaterThanOrEqual(sumConfidence(map) - 1e-9);
+    }
+    expect(differ).toBeGreaterThan(0);
   });
 });
