@@ -373,6 +373,8 @@ function checkInputs(template: Template, sample: Sample, options: MatchOptions):
   if (!Number.isInteger(t) || t < 1) throw new UsageError(`matchSample: maxTrials must be a positive integer, got ${t}`);
   const a = options.abstainBelow ?? 0;
   if (!(a >= 0 && a <= 1)) throw new UsageError(`matchSample: abstainBelow must be in [0, 1], got ${a}`);
+  const rule = options.assignment ?? DEFAULT_ASSIGNMENT;
+  if (rule !== 'map' && rule !== 'mea') throw new UsageError(`matchSample: assignment must be 'map' or 'mea', got ${String(rule)}`);
   const s = options.scaleRange ?? DEFAULT_SCALE_RANGE;
   if (!(s[0] > 0 && s[1] >= s[0])) throw new UsageError(`matchSample: scaleRange must satisfy 0 < low <= high, got [${s[0]}, ${s[1]}]`);
 }

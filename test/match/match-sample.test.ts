@@ -341,6 +341,11 @@ describe('matchSample input checks', () => {
     expect(() => matchSample(template, sampleOf('flat', [[0, 0], [1, 1], [2, 0]]), { rng: createRng(1) })).toThrow(UsageError);
   });
 
+  it('rejects an unknown labelling rule', () => {
+    const sample = sampleOf('s', layout.positions.slice(0, 10));
+    expect(() => matchSample(template, sample, { rng: createRng(1), assignment: 'best' as unknown as 'map' })).toThrow(/assignment must be 'map' or 'mea'/);
+  });
+
   it('rejects a non-positive hit radius and a non-integer trial cap', () => {
     const sample = sampleOf('s', layout.positions.slice(0, 10));
     expect(() => matchSample(template, sample, { rng: createRng(1), hitRadius: 0 })).toThrow('hitRadius must be a positive number, got 0');
