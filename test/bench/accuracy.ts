@@ -1,7 +1,7 @@
 /**
  * Accuracy suite for `matchSample` (not part of npm test):
  *
- *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S | --seeds S1,S2,...] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME[;NAME...]] [--per-animal] [--outliers F] [--clustered F] [--missing F] [--no-bend] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM]
+ *   npx tsx test/bench/accuracy.ts [--animals N] [--seed S | --seeds S1,S2,...] [--case default|half-jitter|ganglia|all] [--max-trials T] [--quick] [--only NAME[;NAME...]] [--per-animal] [--outliers F] [--clustered F] [--missing F] [--no-bend] [--cells N] [--training N] [--dim 2|3] [--bend UM] [--crop F] [--axial F] [--warp UM] [--assign map|mea]
  *
  * Generated realistic animals (test/support/animals.ts): an invented layout of
  * 190 cells packed 2 um apart, per-cell anisotropic jitter (sd 1-3 um in the
@@ -18,7 +18,8 @@
  * and test animals: cell-level variability the template takes in and the oracle
  * does not undo; it too draws more numbers, compare with --warp 0.001); the ganglia case packs the same number of
  * cells into clusters with gaps between them (as real heads group nuclei in
- * ganglia), at the default jitter. The template is built by buildTemplate
+ * ganglia), at the default jitter. --assign sets the labelling rule of the
+ * matcher, the oracle and the truth-fitted row alike (MatchOptions.assignment). The template is built by buildTemplate
  * (src/template) from 25 training animals labelled at 60%.
  *
  * Reported per method (ransac = cairn's matcher, icp, cpd baselines):
@@ -41,7 +42,7 @@
 import { applyToPoint, fitAffine, fitSimilarity, invertTransform, transformScale } from '../../src/geometry/index.js';
 import { calibrationTable, expectedCalibrationError, type ScoredPoint } from '../../src/evaluate/metrics.js';
 import { sampleSeed } from '../../src/evaluate/cross-validate.js';
-import { labelMappedPoints, matchSample, POSE_MARGIN_SETTLED, poseUnsettled, prepareTemplate, type MatchResult } from '../../src/match/match-sample.js';
+import { labelMappedPoints, matchSample, POSE_MARGIN_SETTLED, poseUnsettled, prepareTemplate, type Assignment, type MatchResult } from '../../src/match/match-sample.js';
 import { createRng, shuffle } from '../../src/random.js';
 import { buildTemplate } from '../../src/template/index.js';
 import type { Sample, Template } from '../../src/types.js';
@@ -94,6 +95,9 @@ const cropFraction = Number(argValue('crop', '0'));
 const axialRange = Number(argValue('axial', '0'));
 /** Standard deviation (um) of the smooth local warp of training and test animals (test/support/animals.ts, AnimalOptions.warp). */
 const warp = Number(argValue('warp', '0'));
+/** The labelling rule of every row (MatchOptions.assignment): map (the default) or mea. */
+const assignment = argValue('assign', 'map') as Assignment;
+if (assignment !== 'map' && assignment !== 'mea') throw new Error(`--assign must be map or mea, got ${String(assignment)}`);
 if (!(outlierFraction >= 0 && outlierFraction < 1) || !(missingFraction >= 0 && missingFraction < 1) || !(clusteredShare >= 0 && clusteredShare <= 1)) {
   throw new Error('--outliers and --missing must be fractions in [0, 1), --clustered in [0, 1]');
 }
@@ -145,7 +149,7 @@ function score(t: Tally, animal: Animal, proposals: MatchResult['proposals'], sk
 function oracleCorrect(template: Template, layout: Layout, layoutToTemplate: ReturnType<typeof fitSimilarity>, animal: Animal, sample: Sample, skip: ReadonlySet<number>): number {
   const mapped = sample.coords.map((p) => applyToPoint(layoutToTemplate.transform, animal.toLayoutFrame(p)));
   const jacobian = Math.pow(transformScale(layoutToTemplate.transform) / animal.scale, template.dim) / animal.axialScale;
-  const proposals = labelMappedPoints(template, sample, mapped, jacobian);
+  const proposals = labelMappedPoints(template, sample, mapped, jacobian, { assignment });
   let c = 0;
   animal.truth.forEach((truth, i) => {
     if (truth !== null && !skip.has(i) && proposals[i].label === truth) c++;
@@ -170,7 +174,7 @@ function truePoseCorrect(template: Template, animal: Animal, sample: Sample, ski
   });
   const t = invertTransform(fitAffine(src, tgt).transform);
   const mapped = sample.coords.map((p) => applyToPoint(t, p));
-  const proposals = labelMappedPoints(template, sample, mapped, Math.pow(transformScale(t), template.dim));
+  const proposals = labelMappedPoints(template, sample, mapped, Math.pow(transformScale(t), template.dim), { assignment });
   let c = 0;
   animal.truth.forEach((truth, i) => {
     if (truth !== null && !skip.has(i) && proposals[i].label === truth) c++;
@@ -327,6 +331,7 @@ function runCase(spec: CaseSpec): void {
             method: v.method,
             nonRigid: v.nonRigid,
             bend: !noBend,
+            assignment,
             maxTrials,
           });
         } catch (e) {
