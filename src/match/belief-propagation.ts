@@ -32,7 +32,7 @@
  * stops when no message changes by more than `tolerance` (relative) or after
  * `iterations` sweeps.
  */
-import type { Marginals, PairGains } from './softassign.js';
+import { exponentiate, type Marginals, type PairGains } from './softassign.js';
 
 /** P(i -> k) per pair, P(i is an outlier) and P(cell k is missing), from the converged messages. */
 export function betheMarginals(pairs: PairGains, points: number, cells: number, iterations = 200, tolerance = 1e-7): Marginals {
@@ -59,8 +59,7 @@ export function betheMarginals(pairs: PairGains, points: number, cells: number, 
 function messages(pairs: PairGains, points: number, cells: number, iterations: number, tolerance: number): { w: Float64Array; c: Float64Array } {
   const m = pairs.rowStart[points];
   const rowStart = pairs.rowStart, cellOf = pairs.cells;
-  const w = new Float64Array(m);
-  for (let j = 0; j < m; j++) w[j] = Math.exp(Math.min(pairs.gains[j], 600));
+  const w = exponentiate(pairs, points, new Float64Array(m));
   // Pairs grouped by cell (column-major order of pair indices).
   const colStart = new Int32Array(cells + 1);
   for (let j = 0; j < m; j++) colStart[cellOf[j] + 1]++;

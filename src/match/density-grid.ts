@@ -22,7 +22,8 @@
  * of the template is not rewarded.
  */
 import type { CellModel } from './cell-model.js';
-import { symmetricEigen } from '../geometry/index.js';
+import { sampleCovariance, symmetricEigen, zeros } from '../geometry/index.js';
+import type { Points } from '../types.js';
 import type { FlatAffine } from './affine-flat.js';
 
 export interface DensityGrid {
@@ -260,20 +261,16 @@ export class MixtureScorer {
  * eigenvectors of their covariance), each side at least 1e-6 of the largest:
  * the same whatever the sample's orientation.
  */
-export function boundingVolume(points: readonly (readonly number[])[]): number {
-  const d = points[0].length, n = points.length;
-  const mean = new Array<number>(d).fill(0);
-  for (const p of points) for (let a = 0; a < d; a++) mean[a] += p[a] / n;
-  const cov = Array.from({ length: d }, () => new Array<number>(d).fill(0));
-  for (const p of points)
-    for (let a = 0; a < d; a++) for (let b = 0; b < d; b++) cov[a][b] += ((p[a] - mean[a]) * (p[b] - mean[b])) / n;
-  const { vectors } = symmetricEigen(cov);
+export function boundingVolume(points: Points): number {
+  const d = points[0].length;
+  // A single point has no spread: any axes do (the sides are then all 0 and floored below).
+  const { vectors } = symmetricEigen(points.length >= 2 ? sampleCovariance(points) : zeros(d, d));
   const sides: number[] = [];
   for (let j = 0; j < d; j++) {
     let lo = Infinity, hi = -Infinity;
     for (const p of points) {
       let s = 0;
-      for (let a = 0; a < d; a++) s += (p[a] - mean[a]) * vectors[a][j];
+      for (let a = 0; a < d; a++) s += p[a] * vectors[a][j];
       lo = Math.min(lo, s);
       hi = Math.max(hi, s);
     }

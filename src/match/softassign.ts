@@ -300,7 +300,7 @@ export function pointLikelihood(
 }
 
 /** W_ij = exp(g_ij) (capped at e^600) into `into`, which must hold every pair; returns `into`. */
-function exponentiate(pairs: PairGains, points: number, into: Float64Array): Float64Array {
+export function exponentiate(pairs: PairGains, points: number, into: Float64Array): Float64Array {
   const m = pairs.rowStart[points];
   for (let j = 0; j < m; j++) into[j] = Math.exp(Math.min(pairs.gains[j], 600));
   return into;

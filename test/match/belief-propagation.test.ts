@@ -1,23 +1,9 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { betheMarginals } from '../../src/match/belief-propagation.js';
-import { sinkhorn, type PairGains } from '../../src/match/softassign.js';
+import { sinkhorn } from '../../src/match/softassign.js';
 import { createRng } from '../../src/random.js';
-
-/** A pair table from a dense gain matrix (rows = points); null = no pair. */
-function table(gains: (number | null)[][]): PairGains {
-  const rowStart = [0];
-  const cells: number[] = [], g: number[] = [];
-  for (const row of gains) {
-    row.forEach((v, k) => {
-      if (v === null) return;
-      cells.push(k);
-      g.push(v);
-    });
-    rowStart.push(cells.length);
-  }
-  return { rowStart: Int32Array.from(rowStart), cells: Int32Array.from(cells), gains: Float64Array.from(g), distances: new Float64Array(g.length) };
-}
+import { pairTable } from './support.js';
 
 /**
  * Exact posterior marginals by enumerating every partial one-to-one matching
@@ -63,7 +49,7 @@ function dense(gains: (number | null)[][], pair: Float64Array): number[][] {
 describe('betheMarginals', () => {
   it('is the exact mixture posterior W_ik / (1 + sum_l W_il) for a single point', () => {
     const g = [[Math.log(3), Math.log(0.5), null, Math.log(2)]];
-    const m = betheMarginals(table(g), 1, 4);
+    const m = betheMarginals(pairTable(g), 1, 4);
     expect(Array.from(m.pair)).toEqual([3 / 6.5, 0.5 / 6.5, 2 / 6.5].map((v) => expect.closeTo(v, 12)));
     expect(m.outlier[0]).toBeCloseTo(1 / 6.5, 12);
   });
@@ -76,7 +62,7 @@ describe('betheMarginals', () => {
       [null, null, 1.5],
     ];
     const exact = enumerated(g);
-    const m = betheMarginals(table(g), 3, 3);
+    const m = betheMarginals(pairTable(g), 3, 3);
     const bp = dense(g, m.pair);
     for (let i = 0; i < 3; i++) for (let k = 0; k < 3; k++) expect(bp[i][k]).toBeCloseTo(exact[i][k], 9);
   });
@@ -87,8 +73,8 @@ describe('betheMarginals', () => {
     for (let t = 0; t < 60; t++) {
       const g = Array.from({ length: 6 }, () => Array.from({ length: 6 }, () => (rng() < 0.5 ? 6 * rng() - 1 : null)));
       const exact = enumerated(g);
-      const bp = dense(g, betheMarginals(table(g), 6, 6).pair);
-      const sk = dense(g, sinkhorn(table(g), 6, 6, 500, 1e-12).pair);
+      const bp = dense(g, betheMarginals(pairTable(g), 6, 6).pair);
+      const sk = dense(g, sinkhorn(pairTable(g), 6, 6, 500, 1e-12).pair);
       for (let i = 0; i < 6; i++)
         for (let k = 0; k < 6; k++) {
           if (g[i][k] === null) continue;
@@ -107,7 +93,7 @@ describe('betheMarginals', () => {
       fc.property(
         fc.array(fc.array(fc.option(fc.double({ min: -20, max: 700, noNaN: true }), { nil: null }), { minLength: 4, maxLength: 4 }), { minLength: 1, maxLength: 6 }),
         (g) => {
-          const m = betheMarginals(table(g), g.length, 4);
+          const m = betheMarginals(pairTable(g), g.length, 4);
           let j = 0;
           const claimed = [0, 0, 0, 0];
           g.forEach((row, i) => {

@@ -6,22 +6,7 @@ import { buildCellModel, cellMahalanobisSquared } from '../../src/match/cell-mod
 import { createRng } from '../../src/random.js';
 import { generateLayout } from '../support/animals.js';
 import { greedyMatching, pairGains, pointLikelihood, sinkhorn, type PairGains } from '../../src/match/softassign.js';
-import { templateFromLayout } from './support.js';
-
-/** A pair table from a dense gain matrix (rows = points); null = no pair. */
-function table(gains: (number | null)[][]): PairGains {
-  const rowStart = [0];
-  const cells: number[] = [], g: number[] = [];
-  for (const row of gains) {
-    row.forEach((v, k) => {
-      if (v === null) return;
-      cells.push(k);
-      g.push(v);
-    });
-    rowStart.push(cells.length);
-  }
-  return { rowStart: Int32Array.from(rowStart), cells: Int32Array.from(cells), gains: Float64Array.from(g), distances: new Float64Array(g.length) };
-}
+import { pairTable, templateFromLayout } from './support.js';
 
 describe('pairGains', () => {
   it('equals log(rho J N(y; mu, S)) - log(Lambda u) - log(1 - rho) with S the predictive covariance', () => {
@@ -139,14 +124,14 @@ describe('pairGains against a scan of every pair', () => {
 describe('sinkhorn (posterior marginals)', () => {
   it('gives the exact posterior W / (1 + W) for one point and one cell (hand derivation)', () => {
     // Two configurations: matched (weight W = e^g) or not (weight 1).
-    const m = sinkhorn(table([[Math.log(3)]]), 1, 1);
+    const m = sinkhorn(pairTable([[Math.log(3)]]), 1, 1);
     expect(m.pair[0]).toBeCloseTo(0.75, 12);
     expect(m.outlier[0]).toBeCloseTo(0.25, 12);
   });
 
   it('gives the per-point mixture posterior when no cell is over-claimed', () => {
     const g = [[Math.log(2), Math.log(0.5), null]];
-    const m = sinkhorn(table(g), 1, 3);
+    const m = sinkhorn(pairTable(g), 1, 3);
     // W = (2, 0.5): P = W / (1 + 2.5).
     expect(m.pair[0]).toBeCloseTo(2 / 3.5, 12);
     expect(m.pair[1]).toBeCloseTo(0.5 / 3.5, 12);
@@ -154,7 +139,7 @@ describe('sinkhorn (posterior marginals)', () => {
   });
 
   it('shares one cell between two points that claim it equally (each at most 1/2)', () => {
-    const m = sinkhorn(table([[Math.log(1000)], [Math.log(1000)]]), 2, 1, 500, 1e-12);
+    const m = sinkhorn(pairTable([[Math.log(1000)], [Math.log(1000)]]), 2, 1, 500, 1e-12);
     expect(m.pair[0]).toBeCloseTo(m.pair[1], 10);
     expect(m.pair[0] + m.pair[1]).toBeLessThanOrEqual(1 + 1e-9);
     expect(m.pair[0]).toBeGreaterThan(0.49);
@@ -165,7 +150,7 @@ describe('sinkhorn (posterior marginals)', () => {
       fc.property(
         fc.array(fc.array(fc.option(fc.double({ min: -5, max: 8, noNaN: true }), { nil: null }), { minLength: 4, maxLength: 4 }), { minLength: 1, maxLength: 6 }),
         (rows) => {
-          const t = table(rows);
+          const t = pairTable(rows);
           const m = sinkhorn(t, rows.length, 4, 2000, 1e-12);
           const col = new Array(4).fill(0);
           for (let i = 0; i < rows.length; i++) {
@@ -189,7 +174,7 @@ describe('pointLikelihood (points under the one-to-one model, Sinkhorn column fa
 
   it('is the mixture log-likelihood sum_i log(1 + sum_k W_ik) when no cell is over-claimed (hand computation)', () => {
     // Point 0 near cells 0 and 1 (gains 0.5, -1), point 1 near cell 2 (gain 2): no column sum exceeds 1.
-    const g = table([
+    const g = pairTable([
       [0.5, -1, null],
       [null, null, 2],
     ]);
@@ -205,7 +190,7 @@ describe('pointLikelihood (points under the one-to-one model, Sinkhorn column fa
     for (const gain of [0.5, 3, 9]) {
       const w = Math.exp(gain);
       const columns = cold(1);
-      const r = pointLikelihood(table([[gain], [gain]]), 2, 1, columns, 200);
+      const r = pointLikelihood(pairTable([[gain], [gain]]), 2, 1, columns, 200);
       expect(r.value).toBeCloseTo(2 * Math.log(2), 9);
       expect(columns[0]).toBeCloseTo(1 / w, 9);
     }
@@ -217,7 +202,7 @@ describe('pointLikelihood (points under the one-to-one model, Sinkhorn column fa
       return () => ((x = (x * 1103515245 + 12345) % 2147483648) / 2147483648);
     })();
     const gains = Array.from({ length: 30 }, () => Array.from({ length: 20 }, () => (rng() < 0.3 ? 6 * rng() - 2 : null)));
-    const g = table(gains);
+    const g = pairTable(gains);
     const columns = cold(20);
     const many = pointLikelihood(g, 30, 20, columns, 500).value;
     expect(pointLikelihood(g, 30, 20, columns, 1).value).toBeCloseTo(many, 8);
@@ -227,7 +212,7 @@ describe('pointLikelihood (points under the one-to-one model, Sinkhorn column fa
   });
 
   it('agrees with sinkhorn: L = -sum_i log P(i is an outlier)', () => {
-    const g = table([
+    const g = pairTable([
       [2, 1.5, null],
       [1.8, null, 0.2],
       [null, 3, 2.5],
@@ -273,7 +258,7 @@ describe('greedyMatching', () => {
           // Make gains distinct so that both greedy orders are unambiguous.
           let c = 0;
           const rows = raw.map((r) => r.map((v) => (v === null ? null : v + (c++) * 1e-6)));
-          const m = greedyMatching(table(rows), rows.length, 5);
+          const m = greedyMatching(pairTable(rows), rows.length, 5);
           expect(m.total).toBeCloseTo(sortedGreedy(rows, 5), 9);
           const used = new Set<number>();
           for (const k of m.cellOfPoint) if (k >= 0) {

@@ -5,6 +5,7 @@
  */
 import { createHash } from 'node:crypto';
 import { fitSimilarity } from '../../src/geometry/index.js';
+import type { PairGains } from '../../src/match/softassign.js';
 import type { Rng } from '../../src/random.js';
 import type { Template, TemplateCell, TemplateMember } from '../../src/types.js';
 import { TEMPLATE_FORMAT, TEMPLATE_VERSION } from '../../src/types.js';
@@ -130,4 +131,19 @@ export function templateFromTraining(layout: Layout, rng: Rng, options: Training
     return { label, mean: n > 0 ? mean : layout.positions[k].slice(), covariance, count: n, sum, sumOfSquares, sparse: n < 3 };
   });
   return assemble(layout, cells, members, pooled);
+}
+
+/** A pair table from a dense gain matrix (rows = points); null = no pair. */
+export function pairTable(gains: (number | null)[][]): PairGains {
+  const rowStart = [0];
+  const cells: number[] = [], g: number[] = [];
+  for (const row of gains) {
+    row.forEach((v, k) => {
+      if (v === null) return;
+      cells.push(k);
+      g.push(v);
+    });
+    rowStart.push(cells.length);
+  }
+  return { rowStart: Int32Array.from(rowStart), cells: Int32Array.from(cells), gains: Float64Array.from(g), distances: new Float64Array(g.length) };
 }
